@@ -1,0 +1,259 @@
+"""User-facing result objects of an evaluation.
+
+:class:`BatchResult` holds the SI arrays of a batch of stacks and converts them to the
+units people read (eV, mA cm^-2, %) at the edge: :meth:`BatchResult.to_frame` gives one
+row per stack, :meth:`BatchResult.junction_frame` one row per junction, and
+:meth:`BatchResult.stack` one JSON-ready dictionary per stack.
+
+Column and key names carry their unit as a suffix: ``_eV``, ``_V``, ``_mA_cm2``,
+``_W_m2``, ``_pct``; ``efficiency`` and ``ff`` are fractions (0-1).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .core.engine import StackSolution
+from .units import EV
+
+__all__ = ["Conditions", "BatchResult"]
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Conditions a batch was evaluated under (for reports and reproducibility).
+
+    Attributes
+    ----------
+    spectrum : str
+        Spectrum description (name, integral [W m^-2], concentration).
+    incident_W_m2 : float
+        Incident power density [W m^-2] that efficiencies divide by.
+    temperature_K : Any
+        Cell temperature [K] (scalar or per junction).
+    ere : Any
+        External radiative efficiency (scalar or per junction).
+    dark_current : str
+        ``"boltzmann"`` or ``"bose-einstein"``.
+    emission : str
+        Emission geometry in words.
+    """
+
+    spectrum: str
+    incident_W_m2: float
+    temperature_K: Any = 300.0
+    ere: Any = 1.0
+    dark_current: str = "boltzmann"
+    emission: str = "front surface only, into a hemisphere, refractive index 1"
+
+    def to_dict(self) -> dict:
+        """JSON-ready dictionary."""
+        def conv(v):
+            a = np.asarray(v)
+            return a.tolist() if a.ndim else float(a)
+        return {
+            "spectrum": self.spectrum,
+            "incident_W_m2": self.incident_W_m2,
+            "temperature_K": conv(self.temperature_K),
+            "ere": conv(self.ere),
+            "dark_current": self.dark_current,
+            "emission": self.emission,
+        }
+
+
+def _num(x: float) -> float | None:
+    x = float(x)
+    return None if math.isnan(x) else x
+
+
+@dataclass
+class BatchResult:
+    """Detailed-balance evaluation of ``M`` stacks of ``N`` junctions.
+
+    Attributes
+    ----------
+    connection : str
+        ``"series"``, ``"independent"`` or ``"voltage-matched"``.
+    solution : StackSolution
+        The raw SI arrays (see :class:`gapmatch.core.engine.StackSolution`).
+    conditions : Conditions
+        What the batch was evaluated under.
+
+    Notes
+    -----
+    For independent connection the stack has no single pair of terminals: the stack's
+    V_oc, J_sc, V_mpp and J_mpp are NaN in arrays and frames and ``null`` in JSON, and
+    ``ff`` is ``P_mpp / sum_i V_oc,i J_sc,i``.
+    """
+
+    connection: str
+    solution: StackSolution
+    conditions: Conditions
+    input_gaps_eV: np.ndarray | None = None  # noqa: N815 - the gaps as given, for display
+    _cache: dict = field(default_factory=dict, repr=False)
+
+    # ---- arrays (SI unless the name says otherwise) -----------------------------------
+    def __len__(self) -> int:
+        return self.solution.gaps_J.shape[0]
+
+    @property
+    def n_junctions(self) -> int:
+        """Junctions per stack."""
+        return self.solution.gaps_J.shape[1]
+
+    @property
+    def gaps_eV(self) -> np.ndarray:  # noqa: N802
+        """Band gaps [eV], ``(M, N)``, top junction first."""
+        if self.input_gaps_eV is not None:
+            return self.input_gaps_eV
+        return self.solution.gaps_J / EV
+
+    @property
+    def pmpp_W_m2(self) -> np.ndarray:  # noqa: N802
+        """Power density at maximum power [W m^-2], ``(M,)``."""
+        return self.solution.op.p_mpp
+
+    @property
+    def efficiency(self) -> np.ndarray:
+        """Power conversion efficiency (fraction 0-1), ``(M,)``."""
+        return self.solution.op.p_mpp / self.solution.incident_W_m2
+
+    @property
+    def ff(self) -> np.ndarray:
+        """Fill factor (fraction), ``(M,)``."""
+        op = self.solution.op
+        if self.connection == "independent":
+            denom = (self.solution.voc_junction * self.solution.jph).sum(axis=1)
+        else:
+            denom = op.voc * op.jsc
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(denom > 0, op.p_mpp / denom, 0.0)
+
+    @property
+    def mismatch_ratio(self) -> np.ndarray:
+        """Smallest over largest junction photocurrent, ``(M,)`` (1 = matched)."""
+        jph = self.solution.jph
+        mx = jph.max(axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(mx > 0, jph.min(axis=1) / mx, 0.0)
+
+    @property
+    def power_share(self) -> np.ndarray:
+        """Each junction's share of the stack power (fraction), ``(M, N)``."""
+        p = self.solution.op.p_junction
+        tot = self.solution.op.p_mpp[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(tot > 0, p / tot, 0.0)
+
+    def best(self) -> int:
+        """Index of the most efficient stack."""
+        return int(np.argmax(self.efficiency))
+
+    # ---- tables -----------------------------------------------------------------------
+    def to_frame(self) -> pd.DataFrame:
+        """One row per stack, in the units people read.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Columns ``gap_1_eV ... gap_N_eV`` (top first), ``efficiency_pct``,
+            ``pmpp_W_m2``, ``voc_V``, ``jsc_mA_cm2``, ``ff``, ``vmpp_V``, ``jmpp_mA_cm2``,
+            ``mismatch_ratio`` and, for voltage matching, ``cells_per_string``.
+        """
+        op = self.solution.op
+        cols: dict[str, Any] = {}
+        for i in range(self.n_junctions):
+            cols[f"gap_{i + 1}_eV"] = self.gaps_eV[:, i]
+        cols.update(
+            connection=self.connection,
+            efficiency_pct=100 * self.efficiency,
+            pmpp_W_m2=op.p_mpp,
+            voc_V=op.voc,
+            jsc_mA_cm2=op.jsc * 0.1,
+            ff=self.ff,
+            vmpp_V=op.v_mpp,
+            jmpp_mA_cm2=op.j_mpp * 0.1,
+            mismatch_ratio=self.mismatch_ratio,
+        )
+        if op.ratio is not None:
+            cols["cells_per_string"] = [":".join(map(str, r)) for r in op.ratio]
+        return pd.DataFrame(cols)
+
+    def junction_frame(self) -> pd.DataFrame:
+        """One row per junction of every stack (long format).
+
+        Returns
+        -------
+        pandas.DataFrame
+            ``stack``, ``junction`` (1 = top), ``gap_eV``, ``jph_mA_cm2``,
+            ``jsc_mA_cm2``, ``voc_V``, ``v_op_V``, ``j_op_mA_cm2``, ``p_op_W_m2``,
+            ``power_share_pct``.
+        """
+        s = self.solution
+        m, n = s.gaps_J.shape
+        return pd.DataFrame({
+            "stack": np.repeat(np.arange(m), n),
+            "junction": np.tile(np.arange(1, n + 1), m),
+            "gap_eV": self.gaps_eV.ravel(),
+            "jph_mA_cm2": 0.1 * s.jph.ravel(),
+            "jsc_mA_cm2": 0.1 * s.jph.ravel(),
+            "voc_V": s.voc_junction.ravel(),
+            "v_op_V": s.op.v_junction.ravel(),
+            "j_op_mA_cm2": 0.1 * s.op.j_junction.ravel(),
+            "p_op_W_m2": s.op.p_junction.ravel(),
+            "power_share_pct": 100 * self.power_share.ravel(),
+        })
+
+    def stack(self, i: int = 0) -> dict:
+        """JSON-ready description of stack ``i``.
+
+        Returns
+        -------
+        dict
+            Top-level keys ``efficiency`` (fraction), ``efficiency_pct``, ``gaps_eV``,
+            ``connection``, ``pmpp_W_m2``, ``voc_V``, ``jsc_mA_cm2``, ``ff``, ``vmpp_V``,
+            ``jmpp_mA_cm2``, ``mismatch_ratio``, ``absorbed_W_m2``, ``incident_W_m2``,
+            ``conditions``, and ``junctions``: a list (top first) of objects with
+            ``gap_eV``, ``jph_mA_cm2``, ``jsc_mA_cm2``, ``voc_V``, ``v_op_V``,
+            ``j_op_mA_cm2``, ``p_op_W_m2``, ``power_share``.
+        """
+        s = self.solution
+        op = s.op
+        out: dict[str, Any] = {
+            "efficiency": float(self.efficiency[i]),
+            "efficiency_pct": float(100 * self.efficiency[i]),
+            "gaps_eV": [float(g) for g in self.gaps_eV[i]],
+            "connection": self.connection,
+            "pmpp_W_m2": float(op.p_mpp[i]),
+            "voc_V": _num(op.voc[i]),
+            "jsc_mA_cm2": _num(0.1 * op.jsc[i]),
+            "ff": float(self.ff[i]),
+            "vmpp_V": _num(op.v_mpp[i]),
+            "jmpp_mA_cm2": _num(0.1 * op.j_mpp[i]),
+            "mismatch_ratio": float(self.mismatch_ratio[i]),
+            "absorbed_W_m2": float(s.absorbed_W_m2[i]),
+            "incident_W_m2": float(s.incident_W_m2),
+        }
+        if op.ratio is not None:
+            out["cells_per_string"] = [int(r) for r in op.ratio[i]]
+        out["conditions"] = self.conditions.to_dict()
+        out["junctions"] = [
+            {
+                "junction": k + 1,
+                "gap_eV": float(self.gaps_eV[i, k]),
+                "jph_mA_cm2": float(0.1 * s.jph[i, k]),
+                "jsc_mA_cm2": float(0.1 * s.jph[i, k]),
+                "voc_V": float(s.voc_junction[i, k]),
+                "v_op_V": float(op.v_junction[i, k]),
+                "j_op_mA_cm2": float(0.1 * op.j_junction[i, k]),
+                "p_op_W_m2": float(op.p_junction[i, k]),
+                "power_share": float(self.power_share[i, k]),
+            }
+            for k in range(self.n_junctions)
+        ]
+        return out

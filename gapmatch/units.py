@@ -1,0 +1,78 @@
+"""Physical constants and unit conversions used at the edges of the package.
+
+All constants come from :mod:`scipy.constants` (CODATA). Inside gapmatch quantities are
+SI: energies in J, current densities in A m^-2, power densities in W m^-2. The helpers
+below convert to the units users read (eV, nm, mA cm^-2, %).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import constants as _c
+
+__all__ = [
+    "Q",
+    "H",
+    "C",
+    "K_B",
+    "SIGMA",
+    "HC_EV_NM",
+    "EV",
+    "ev_to_j",
+    "j_to_ev",
+    "nm_to_ev",
+    "ev_to_nm",
+    "a_m2_to_ma_cm2",
+    "ma_cm2_to_a_m2",
+    "thermal_voltage",
+]
+
+#: elementary charge [C]
+Q: float = _c.e
+#: Planck constant [J s]
+H: float = _c.h
+#: speed of light in vacuum [m s^-1]
+C: float = _c.c
+#: Boltzmann constant [J K^-1]
+K_B: float = _c.k
+#: Stefan-Boltzmann constant [W m^-2 K^-4]
+SIGMA: float = _c.sigma
+#: one electronvolt [J]
+EV: float = _c.eV
+#: h c / q [nm eV], about 1239.84
+HC_EV_NM: float = H * C / Q * 1e9
+
+
+def ev_to_j(e_ev):
+    """Convert energy from eV to J."""
+    return np.asarray(e_ev, dtype=float) * EV
+
+
+def j_to_ev(e_j):
+    """Convert energy from J to eV."""
+    return np.asarray(e_j, dtype=float) / EV
+
+
+def nm_to_ev(wavelength_nm):
+    """Photon energy [eV] of a vacuum wavelength [nm]."""
+    return HC_EV_NM / np.asarray(wavelength_nm, dtype=float)
+
+
+def ev_to_nm(energy_ev):
+    """Vacuum wavelength [nm] of a photon energy [eV]."""
+    return HC_EV_NM / np.asarray(energy_ev, dtype=float)
+
+
+def a_m2_to_ma_cm2(j):
+    """Convert current density from A m^-2 to mA cm^-2 (factor 0.1)."""
+    return np.asarray(j, dtype=float) * 0.1
+
+
+def ma_cm2_to_a_m2(j):
+    """Convert current density from mA cm^-2 to A m^-2 (factor 10)."""
+    return np.asarray(j, dtype=float) * 10.0
+
+
+def thermal_voltage(temperature_k):
+    """Thermal voltage k T / q [V] at cell temperature ``temperature_k`` [K]."""
+    return K_B * np.asarray(temperature_k, dtype=float) / Q
