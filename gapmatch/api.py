@@ -128,7 +128,8 @@ def evaluate(
         Form of the radiative dark current.
     cells_per_string : sequence of int, optional
         Voltage matching only: cells per string for each junction (e.g. ``(2, 3)``);
-        by default the best ratio with at most 6 cells per string is chosen per stack.
+        by default the best ratio is chosen per stack among strings of at most
+        ``AUTO_MAX_CELLS[N]`` cells (6 for 2-3 junctions, 5, 4, 3 for 4, 5, 6).
     require_descending : bool
         Reject stacks whose gaps do not decrease from the top (set False to evaluate
         full maps; a junction below a smaller gap then receives no light).
@@ -168,9 +169,6 @@ def evaluate(
             raise InputError("cells_per_string", f"needs {n} whole numbers in [1, 100], one "
                              "per junction", cells_per_string)
         ratio = r.astype(int)
-    elif connection == "voltage-matched" and n > 3:
-        raise InputError("cells_per_string", "must be given for voltage matching of more "
-                         "than 3 junctions (the automatic choice tries up to 3)")
     spec = get_spectrum(spectrum, spectrum_file=spectrum_file,
                         sun_temperature_K=sun_temperature_K,
                         irradiance_W_m2=irradiance_W_m2, concentration=concentration)

@@ -30,7 +30,7 @@ def register(sub) -> None:
                    "terminal) or voltage-matched strings (default series)")
     p.add_argument("--cells-per-string", type=int, nargs="+", metavar="N",
                    help="voltage-matched only: cells per string for each junction, top first "
-                   "(default: best ratio with up to 6 cells per string)")
+                   "(default: the best ratio with strings of up to 6 cells for 2-3 junctions, 5/4/3 for 4/5/6)")
     add_condition_options(p)
     p.add_argument("--json", action="store_true",
                    help="print one JSON object (efficiency as a fraction 0-1, unit-suffixed "

@@ -36,14 +36,18 @@ from .solvers import XTOL_REL, maximise_concave
 
 __all__ = [
     "CONNECTIONS",
+    "AUTO_MAX_CELLS",
     "OperatingPoint",
     "solve_series",
     "solve_independent",
     "solve_voltage_matched",
     "candidate_ratios",
+    "best_ratio_voltage_matched",
 ]
 
 CONNECTIONS = ("series", "independent", "voltage-matched")
+#: longest string tried by the automatic voltage-matching ratio, per number of junctions
+AUTO_MAX_CELLS = {1: 1, 2: 6, 3: 6, 4: 5, 5: 4, 6: 3}
 
 
 @dataclass
@@ -194,7 +198,7 @@ def candidate_ratios(n_junctions: int, max_cells: int = 6) -> list[tuple[int, ..
     return out
 
 
-def solve_voltage_matched(d, ratio: np.ndarray) -> OperatingPoint:
+def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
     """Exact maximum power point of voltage-matched strings.
 
     Parameters
@@ -205,22 +209,31 @@ def solve_voltage_matched(d, ratio: np.ndarray) -> OperatingPoint:
         Cells per string for each junction, shape ``(N,)`` or ``(M, N)`` (positive
         integers, top junction first). ``(1, 2)`` means one top cell in series matches
         two bottom cells in series.
+    single : tuple of numpy.ndarray, optional
+        ``d.mpp()`` if already computed (used for the start point).
 
     Returns
     -------
     OperatingPoint
         ``v_mpp`` is the common string voltage, ``j_mpp = P / V`` the terminal current per
         unit stack area.
+
+    Notes
+    -----
+    The open-circuit voltage is the root of ``ln G - ln(G - J(V))`` with
+    ``G = J(-inf)``, a nearly linear, concave and decreasing function of ``V`` on which
+    Newton's method converges in a few steps even far in the exponential regime.
     """
     r = np.broadcast_to(np.asarray(ratio, dtype=float), d.jph.shape)
     voc_j = d.voc()
     vcap = np.min(r * d.v_upper(), axis=1)
     lo = np.zeros(d.jph.shape[0])
     hi = np.minimum(np.max(r * voc_j, axis=1), vcap)
-    vm_single, jm_single = d.mpp()
+    vm_single, jm_single = d.mpp() if single is None else single
     pw = vm_single * jm_single
     wsum = pw.sum(axis=1)
     x0 = np.where(wsum > 0, (pw * r * vm_single).sum(axis=1) / np.where(wsum > 0, wsum, 1), 0)
+    g_sat = (d.j_limit() / r).sum(axis=1)
 
     def grad(v):
         vk = v[:, None] / r
@@ -230,15 +243,17 @@ def solve_voltage_matched(d, ratio: np.ndarray) -> OperatingPoint:
         vk = v[:, None] / r
         return ((2.0 * d.dcurrent(vk) + vk * d.d2current(vk)) / r**2).sum(axis=1)
 
-    def jterm(v):
-        return (d.current(v[:, None] / r) / r).sum(axis=1)
+    def log_balance(v):
+        return np.log(g_sat) - np.log(g_sat - (d.current(v[:, None] / r) / r).sum(axis=1))
 
-    def djterm(v):
-        return (d.dcurrent(v[:, None] / r) / r**2).sum(axis=1)
+    def dlog_balance(v):
+        vk = v[:, None] / r
+        jt = (d.current(vk) / r).sum(axis=1)
+        return (d.dcurrent(vk) / r**2).sum(axis=1) / (g_sat - jt)
 
-    with np.errstate(over="ignore", invalid="ignore"):
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         v = maximise_concave(grad, hess, lo, hi, x0)
-        voc = maximise_concave(jterm, djterm, np.min(r * voc_j, axis=1), hi, hi)
+        voc = maximise_concave(log_balance, dlog_balance, np.minimum(v, hi), hi, hi)
     vk = v[:, None] / r
     jk = d.current(vk)
     p = (vk * jk).sum(axis=1)
@@ -246,3 +261,41 @@ def solve_voltage_matched(d, ratio: np.ndarray) -> OperatingPoint:
     with np.errstate(divide="ignore", invalid="ignore"):
         j = np.where(v > 0, p / v, 0.0)
     return OperatingPoint(p, v, j, voc, jsc, vk, jk, ratio=r.astype(int))
+
+
+def best_ratio_voltage_matched(d, max_cells: int | None = None,
+                               max_rows: int = 2**19) -> OperatingPoint:
+    """Voltage matching with, per stack, the best string lengths up to ``max_cells``.
+
+    Parameters
+    ----------
+    d : BoltzmannDiodes or BoseEinsteinDiodes
+        Junction diodes, shape ``(M, N)``.
+    max_cells : int, optional
+        Largest number of cells in one string; default ``AUTO_MAX_CELLS[N]``.
+    max_rows : int
+        Largest number of (stack, candidate) pairs solved in one vectorised call.
+
+    Returns
+    -------
+    OperatingPoint
+        With ``ratio`` set to the chosen string lengths.
+    """
+    m, n = d.jph.shape
+    if max_cells is None:
+        max_cells = AUTO_MAX_CELLS[n]
+    cand = np.asarray(candidate_ratios(n, max_cells), dtype=float)
+    k = cand.shape[0]
+    single = d.mpp()
+    best_p = np.full(m, -np.inf)
+    best_k = np.zeros(m, dtype=int)
+    step = max(1, max_rows // k)
+    for start in range(0, m, step):
+        rows = np.arange(start, min(m, start + step))
+        rep = np.repeat(rows, k)
+        op = solve_voltage_matched(d.take(rep), np.tile(cand, (rows.size, 1)),
+                                   single=(single[0][rep], single[1][rep]))
+        pk = op.p_mpp.reshape(rows.size, k)
+        best_k[rows] = np.argmax(pk, axis=1)
+        best_p[rows] = pk[np.arange(rows.size), best_k[rows]]
+    return solve_voltage_matched(d, cand[best_k], single=single)

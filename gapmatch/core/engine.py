@@ -27,7 +27,7 @@ import numpy as np
 from ..units import Q
 from .connections import (
     OperatingPoint,
-    candidate_ratios,
+    best_ratio_voltage_matched,
     solve_independent,
     solve_series,
     solve_voltage_matched,
@@ -99,7 +99,7 @@ def solve_stacks(
     dark_model: str = "boltzmann",
     emission_factor: np.ndarray | float = 1.0,
     vm_ratio: np.ndarray | None = None,
-    vm_max_cells: int = 6,
+    vm_max_cells: int | None = None,
     threads: int | None = None,
     chunk: int = 32768,
 ) -> StackSolution:
@@ -125,8 +125,9 @@ def solve_stacks(
     vm_ratio : numpy.ndarray, optional
         Cells per string for voltage matching, shape ``(N,)`` or ``(M, N)``. ``None``
         chooses, per stack, the best small-integer ratio (up to ``vm_max_cells``).
-    vm_max_cells : int
-        Largest string length tried when ``vm_ratio`` is ``None``.
+    vm_max_cells : int, optional
+        Largest string length tried when ``vm_ratio`` is ``None`` (default
+        ``AUTO_MAX_CELLS[N]`` of :mod:`.connections`).
     threads : int, optional
         Worker threads for large batches (numpy releases the GIL in its loops); default
         the number of CPUs. Results do not depend on it.
@@ -192,25 +193,9 @@ def _solve(gaps, spectrum, connection, *, temperature_K, ere, dark_model,  # noq
         if vm_ratio is not None:
             op = solve_voltage_matched(diodes, np.asarray(vm_ratio))
         else:
-            op = _best_ratio(diodes, gaps.shape[1], vm_max_cells)
+            op = best_ratio_voltage_matched(diodes, vm_max_cells)
     else:
         raise ValueError(f"unknown connection {connection!r}")
     e_min = gaps.min(axis=1)
     absorbed = spectrum.power_above(e_min)
     return StackSolution(gaps, jph, diodes.voc(), op, spectrum.total_irradiance_W_m2, absorbed)
-
-
-def _best_ratio(diodes, n: int, max_cells: int) -> OperatingPoint:
-    best: OperatingPoint | None = None
-    for r in candidate_ratios(n, max_cells):
-        op = solve_voltage_matched(diodes, np.asarray(r))
-        if best is None:
-            best = op
-            continue
-        better = op.p_mpp > best.p_mpp
-        for name in ("p_mpp", "v_mpp", "j_mpp", "voc", "jsc"):
-            setattr(best, name, np.where(better, getattr(op, name), getattr(best, name)))
-        for name in ("v_junction", "j_junction", "ratio"):
-            setattr(best, name, np.where(better[:, None], getattr(op, name), getattr(best, name)))
-    assert best is not None
-    return best

@@ -98,6 +98,7 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
     wl: list[float] = []
     irr: list[float] = []
     rows: list[int] = []
+    seen_row = False
     with p.open(newline="", encoding="utf-8-sig") as fh:
         for lineno, row in enumerate(csv.reader(fh), start=1):
             if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
@@ -105,10 +106,11 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
             if len(row) < 2:
                 raise InputError(field, f"row {lineno}: needs two columns, wavelength [nm] and "
                                  "irradiance [W m^-2 nm^-1]", ",".join(row))
+            first, seen_row = not seen_row, True
             try:
                 a, b = float(row[0]), float(row[1])
             except ValueError:
-                if not wl:  # header
+                if first:  # one header row
                     continue
                 raise InputError(field, f"row {lineno}: not a number", ",".join(row[:2])) from None
             if not (math.isfinite(a) and math.isfinite(b)):
