@@ -58,8 +58,9 @@ def test_de_vos_blackbody_independent(n, expected, start):
             return 1.0
         return -gm.evaluate(g, "independent", "blackbody").efficiency[0]
 
-    res = optimize.minimize(neg, start, method="Nelder-Mead",
-                            options=dict(xatol=1e-5, fatol=1e-10, maxiter=4000))
+    res = optimize.minimize(
+        neg, start, method="Nelder-Mead", options=dict(xatol=1e-5, fatol=1e-10, maxiter=4000)
+    )
     assert -100 * res.fun == pytest.approx(expected, abs=0.3)
 
 
@@ -67,8 +68,9 @@ def test_de_vos_maximum_concentration():
     # De Vos 1980 (from memory): at maximum concentration one junction reaches about
     # 40.7 % near 1.1 eV (blackbody 6000 K, cell 300 K). 0.1 abs % / 0.05 eV tolerances:
     # memory value given to one decimal; the optimum is flat.
-    eg, eff = _scan_1j("blackbody", 0.6, 1.6, 0.002, concentration=MAX_CONCENTRATION,
-                       dark_current="bose-einstein")
+    eg, eff = _scan_1j(
+        "blackbody", 0.6, 1.6, 0.002, concentration=MAX_CONCENTRATION, dark_current="bose-einstein"
+    )
     assert 100 * eff == pytest.approx(40.7, abs=0.1)
     assert eg == pytest.approx(1.1, abs=0.05)
 
@@ -98,8 +100,9 @@ def _brute_series(jph, j0, vt):
     def neg_p(j):
         return -j * np.sum(vt * np.log1p((jph - j) / j0))
 
-    r = optimize.minimize_scalar(neg_p, bounds=(0, jph.min()), method="bounded",
-                                 options=dict(xatol=1e-12 * jph.min()))
+    r = optimize.minimize_scalar(
+        neg_p, bounds=(0, jph.min()), method="bounded", options=dict(xatol=1e-12 * jph.min())
+    )
     return -r.fun
 
 
@@ -132,8 +135,9 @@ def test_independent_mpp_matches_bruteforce(model, am15g):
                 vv[0, i] = v
                 return -v * sub.current(vv)[0, i]
 
-            r = optimize.minimize_scalar(neg_p, bounds=(0, voc), method="bounded",
-                                         options=dict(xatol=1e-13))
+            r = optimize.minimize_scalar(
+                neg_p, bounds=(0, voc), method="bounded", options=dict(xatol=1e-13)
+            )
             assert sol.op.p_junction[k, i] == pytest.approx(-r.fun, rel=1e-9)
 
 
@@ -147,8 +151,9 @@ def test_voltage_matched_fixed_ratio_matches_bruteforce(am15g):
         vk = np.array([[v / 2, v / 3]])
         return -(vk * d.current(vk)).sum()
 
-    ref = optimize.minimize_scalar(neg_p, bounds=(0, 6), method="bounded",
-                                   options=dict(xatol=1e-13))
+    ref = optimize.minimize_scalar(
+        neg_p, bounds=(0, 6), method="bounded", options=dict(xatol=1e-13)
+    )
     assert sol.op.p_mpp[0] == pytest.approx(-ref.fun, rel=1e-9)
     assert sol.op.v_junction[0, 0] * 2 == pytest.approx(sol.op.v_junction[0, 1] * 3, rel=1e-12)
 
@@ -179,8 +184,9 @@ def test_boltzmann_and_bose_einstein_agree_for_large_gaps(gaps):
 def test_bose_einstein_matters_for_small_gaps():
     # at 0.3 eV and high concentration E_g - qV_oc is only a few kT: the two differ
     a = gm.evaluate([0.3], "series", "blackbody", concentration=40000).efficiency[0]
-    b = gm.evaluate([0.3], "series", "blackbody", concentration=40000,
-                    dark_current="bose-einstein").efficiency[0]
+    b = gm.evaluate(
+        [0.3], "series", "blackbody", concentration=40000, dark_current="bose-einstein"
+    ).efficiency[0]
     assert (a - b) / a > 1e-3
 
 
@@ -216,8 +222,10 @@ def test_per_junction_temperature_and_ere():
     a = gm.evaluate([1.7, 1.1], "independent", temperature_K=[300, 350], ere=[1.0, 0.1])
     top = gm.evaluate([1.7, 1.1], "independent").solution.op.p_junction[0, 0]
     assert a.solution.op.p_junction[0, 0] == pytest.approx(top, rel=1e-12)
-    assert a.solution.op.p_junction[0, 1] < gm.evaluate(
-        [1.7, 1.1], "independent").solution.op.p_junction[0, 1]
+    assert (
+        a.solution.op.p_junction[0, 1]
+        < gm.evaluate([1.7, 1.1], "independent").solution.op.p_junction[0, 1]
+    )
 
 
 def test_result_frames_and_json(am15g):
@@ -245,7 +253,8 @@ def test_dark_stack_is_zero_not_nan(am15g):
 def test_blackbody_concentration_identity():
     # efficiency rises monotonically with concentration up to the thermodynamic limit
     c = np.array([1, 10, 100, 1000, 10000, MAX_CONCENTRATION])
-    effs = [gm.evaluate([1.2], "series", "blackbody", concentration=float(x)).efficiency[0]
-            for x in c]
+    effs = [
+        gm.evaluate([1.2], "series", "blackbody", concentration=float(x)).efficiency[0] for x in c
+    ]
     assert np.all(np.diff(effs) > 0)
     assert BlackbodySun(6000.0, MAX_CONCENTRATION).dilution == pytest.approx(1.0)

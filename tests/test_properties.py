@@ -14,9 +14,11 @@ CONNECTIONS = ["series", "independent", "voltage-matched"]
 
 def stacks(min_n=1, max_n=4, lo=0.5, hi=3.0):
     """Strictly decreasing gaps [eV], at least 10 meV apart."""
-    return st.lists(st.floats(lo, hi), min_size=min_n, max_size=max_n, unique=True).filter(
-        lambda g: len(g) < 2 or np.min(np.diff(sorted(g))) > 0.01
-    ).map(lambda g: sorted(g, reverse=True))
+    return (
+        st.lists(st.floats(lo, hi), min_size=min_n, max_size=max_n, unique=True)
+        .filter(lambda g: len(g) < 2 or np.min(np.diff(sorted(g))) > 0.01)
+        .map(lambda g: sorted(g, reverse=True))
+    )
 
 
 @given(stacks(), st.sampled_from(CONNECTIONS), st.floats(1.0, 46000.0))

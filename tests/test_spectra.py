@@ -88,10 +88,22 @@ def test_blackbody_integrals_against_quadrature(t_sun):
     # Stefan-Boltzmann (scipy.constants.sigma) times dilution
     assert bb.total_irradiance_W_m2 == pytest.approx(SUN_DILUTION * sc.sigma * t_sun**4, rel=1e-12)
     for eg in (0.3, 1.1, 2.5):
-        ref_n, _ = integrate.quad(lambda e: float(bb.spectral_photon_flux(np.array(e))),
-                                  eg * EV, 40 * EV, epsabs=0, epsrel=1e-12, limit=200)
-        ref_p, _ = integrate.quad(lambda e: float(e * bb.spectral_photon_flux(np.array(e))),
-                                  eg * EV, 40 * EV, epsabs=0, epsrel=1e-12, limit=200)
+        ref_n, _ = integrate.quad(
+            lambda e: float(bb.spectral_photon_flux(np.array(e))),
+            eg * EV,
+            40 * EV,
+            epsabs=0,
+            epsrel=1e-12,
+            limit=200,
+        )
+        ref_p, _ = integrate.quad(
+            lambda e: float(e * bb.spectral_photon_flux(np.array(e))),
+            eg * EV,
+            40 * EV,
+            epsabs=0,
+            epsrel=1e-12,
+            limit=200,
+        )
         # polylogarithm series vs adaptive quadrature: both near double precision
         assert bb.photon_flux_above(np.array([eg * EV]))[0] == pytest.approx(ref_n, rel=1e-9)
         assert bb.power_above(np.array([eg * EV]))[0] == pytest.approx(ref_p, rel=1e-9)
@@ -120,8 +132,10 @@ def test_scaling_and_concentration(am15g):
         (dict(concentration=1e5), r"concentration: must be a number in \(0, 46"),
         (dict(irradiance_W_m2=-5.0), r"irradiance_W_m2: must be a number in \(0, 100000\]"),
         (dict(spectrum="AM2"), r"spectrum: must be one of AM1.5G, AM1.5D, AM0, blackbody"),
-        (dict(spectrum="blackbody", sun_temperature_K=100.0),
-         r"sun_temperature_K: must be a number in \[1000, 20000\] K"),
+        (
+            dict(spectrum="blackbody", sun_temperature_K=100.0),
+            r"sun_temperature_K: must be a number in \[1000, 20000\] K",
+        ),
     ],
 )
 def test_spectrum_validation(kwargs, match):
@@ -159,7 +173,9 @@ def test_csv_missing_file(tmp_path):
 
 def test_csv_round_trip_reproduces_standard(tmp_path, am15g):
     lines = ["# exported for a test", "wavelength_nm,irradiance_W_m2_nm"]
-    lines += [f"{float(w)!r},{float(v)!r}" for w, v in zip(am15g.wavelength_nm, am15g.irradiance_W_m2_nm)]
+    lines += [
+        f"{float(w)!r},{float(v)!r}" for w, v in zip(am15g.wavelength_nm, am15g.irradiance_W_m2_nm, strict=True)
+    ]
     spec = gm.read_spectrum_csv(_write(tmp_path, "\n".join(lines)))
     assert spec.total_irradiance_W_m2 == pytest.approx(am15g.total_irradiance_W_m2, rel=1e-14)
     a = gm.evaluate([1.7, 1.1], spectrum=spec).efficiency

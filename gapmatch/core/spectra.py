@@ -38,7 +38,7 @@ import numpy as np
 from scipy import constants as _sc
 
 from ..errors import InputError, check_range
-from ..units import C, H, K_B, SIGMA
+from ..units import K_B, SIGMA, C, H
 from .planck import PLANCK_PREFACTOR, bose_tail
 
 __all__ = [
@@ -135,19 +135,24 @@ class Spectrum:
 
     def describe(self) -> str:
         """One-line human description with the integral and concentration."""
-        return (
-            f"{self.name}: {self.total_irradiance_W_m2:.2f} W m^-2"
-            + (f", concentration {self.concentration:g} suns" if self.concentration != 1 else "")
+        return f"{self.name}: {self.total_irradiance_W_m2:.2f} W m^-2" + (
+            f", concentration {self.concentration:g} suns" if self.concentration != 1 else ""
         )
 
 
 def _check_scaling(irradiance_W_m2: float | None, concentration: float) -> None:  # noqa: N803
     if irradiance_W_m2 is not None:
-        check_range("irradiance_W_m2", irradiance_W_m2, 0.0, 1e5, low_inclusive=False,
-                    unit="W m^-2")
-    check_range("concentration", concentration, 0.0, MAX_CONCENTRATION,
-                low_inclusive=False, unit="suns (thermodynamic maximum 1/sin^2 of the "
-                "solar half-angle)")
+        check_range(
+            "irradiance_W_m2", irradiance_W_m2, 0.0, 1e5, low_inclusive=False, unit="W m^-2"
+        )
+    check_range(
+        "concentration",
+        concentration,
+        0.0,
+        MAX_CONCENTRATION,
+        low_inclusive=False,
+        unit="suns (thermodynamic maximum 1/sin^2 of the solar half-angle)",
+    )
 
 
 @dataclass(frozen=True, eq=False)
@@ -187,21 +192,29 @@ class TabulatedSpectrum(Spectrum):
         wl = np.asarray(self.wavelength_nm, dtype=float)
         irr = np.asarray(self.irradiance_W_m2_nm, dtype=float)
         if wl.ndim != 1 or irr.shape != wl.shape:
-            raise InputError("spectrum", "wavelength and irradiance must be 1-D arrays of "
-                             "equal length", (wl.shape, irr.shape))
+            raise InputError(
+                "spectrum",
+                "wavelength and irradiance must be 1-D arrays of equal length",
+                (wl.shape, irr.shape),
+            )
         if wl.size < 2:
             raise InputError("spectrum", "needs at least two rows", wl.size)
         if not np.all(np.isfinite(wl)) or np.any(wl <= 0):
-            raise InputError("spectrum.wavelength_nm", "every wavelength must be finite and "
-                             "> 0 nm")
+            raise InputError("spectrum.wavelength_nm", "every wavelength must be finite and > 0 nm")
         if np.any(np.diff(wl) <= 0):
             k = int(np.argmax(np.diff(wl) <= 0)) + 1
-            raise InputError("spectrum.wavelength_nm", f"wavelengths must be strictly "
-                             f"increasing; row {k + 1} is not", float(wl[k]))
+            raise InputError(
+                "spectrum.wavelength_nm",
+                f"wavelengths must be strictly increasing; row {k + 1} is not",
+                float(wl[k]),
+            )
         if not np.all(np.isfinite(irr)) or np.any(irr < 0):
             k = int(np.argmax(~np.isfinite(irr) | (irr < 0)))
-            raise InputError("spectrum.irradiance_W_m2_nm", f"irradiance must be finite and "
-                             f">= 0 W m^-2 nm^-1; row {k + 1} is not", float(irr[k]))
+            raise InputError(
+                "spectrum.irradiance_W_m2_nm",
+                f"irradiance must be finite and >= 0 W m^-2 nm^-1; row {k + 1} is not",
+                float(irr[k]),
+            )
         object.__setattr__(self, "wavelength_nm", wl)
         object.__setattr__(self, "irradiance_W_m2_nm", irr)
         # photon flux per nm at the nodes [m^-2 s^-1 nm^-1]
@@ -209,7 +222,9 @@ class TabulatedSpectrum(Spectrum):
         object.__setattr__(self, "_phi", phi)
         dl = np.diff(wl)
         object.__setattr__(
-            self, "_cum_photons", np.concatenate(([0.0], np.cumsum(0.5 * dl * (phi[1:] + phi[:-1]))))
+            self,
+            "_cum_photons",
+            np.concatenate(([0.0], np.cumsum(0.5 * dl * (phi[1:] + phi[:-1])))),
         )
         object.__setattr__(
             self, "_cum_power", np.concatenate(([0.0], np.cumsum(0.5 * dl * (irr[1:] + irr[:-1]))))
@@ -265,8 +280,13 @@ class TabulatedSpectrum(Spectrum):
         return per_nm * (H * C / np.maximum(e, 1e-300) ** 2) * 1e9
 
     def spectral_irradiance_nm(self, wavelength_nm) -> np.ndarray:
-        return np.interp(np.asarray(wavelength_nm, dtype=float), self.wavelength_nm,
-                         self.irradiance_W_m2_nm, left=0.0, right=0.0)
+        return np.interp(
+            np.asarray(wavelength_nm, dtype=float),
+            self.wavelength_nm,
+            self.irradiance_W_m2_nm,
+            left=0.0,
+            right=0.0,
+        )
 
     def plot_grid_nm(self) -> np.ndarray:
         return self.wavelength_nm.copy()
@@ -312,8 +332,14 @@ class BlackbodySun(Spectrum):
 
     def __post_init__(self) -> None:
         check_range("sun_temperature_K", self.sun_temperature_K, 1000.0, 20000.0, unit="K")
-        check_range("concentration", self.concentration, 0.0, MAX_CONCENTRATION,
-                    low_inclusive=False, unit="suns")
+        check_range(
+            "concentration",
+            self.concentration,
+            0.0,
+            MAX_CONCENTRATION,
+            low_inclusive=False,
+            unit="suns",
+        )
         if self.name == "blackbody":
             object.__setattr__(self, "name", f"blackbody {self.sun_temperature_K:g} K")
 
@@ -371,6 +397,7 @@ class BlackbodySun(Spectrum):
         if irradiance_W_m2 is not None:
             scale = scale * irradiance_W_m2 / self.total_irradiance_W_m2 * self.concentration
         c_new = self.concentration * concentration
-        check_range("concentration", c_new, 0.0, MAX_CONCENTRATION, low_inclusive=False,
-                    unit="suns")
+        check_range(
+            "concentration", c_new, 0.0, MAX_CONCENTRATION, low_inclusive=False, unit="suns"
+        )
         return BlackbodySun(self.sun_temperature_K, c_new, scale)

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import csv
 import math
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 import numpy as np
@@ -18,8 +18,13 @@ import numpy as np
 from ..core.spectra import BlackbodySun, Spectrum, TabulatedSpectrum
 from ..errors import InputError
 
-__all__ = ["STANDARD_SPECTRA", "SPECTRUM_CHOICES", "standard_spectrum", "read_spectrum_csv",
-           "get_spectrum"]
+__all__ = [
+    "STANDARD_SPECTRA",
+    "SPECTRUM_CHOICES",
+    "standard_spectrum",
+    "read_spectrum_csv",
+    "get_spectrum",
+]
 
 #: standard spectrum name -> column of pvlib's ASTM G173-03 table
 STANDARD_SPECTRA = {"AM1.5G": "global", "AM1.5D": "direct", "AM0": "extraterrestrial"}
@@ -27,7 +32,7 @@ STANDARD_SPECTRA = {"AM1.5G": "global", "AM1.5D": "direct", "AM0": "extraterrest
 SPECTRUM_CHOICES = (*STANDARD_SPECTRA, "blackbody")
 
 
-@lru_cache(maxsize=None)
+@cache
 def _g173(column: str) -> TabulatedSpectrum:
     import pvlib
 
@@ -104,8 +109,12 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
             if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
                 continue
             if len(row) < 2:
-                raise InputError(field, f"row {lineno}: needs two columns, wavelength [nm] and "
-                                 "irradiance [W m^-2 nm^-1]", ",".join(row))
+                raise InputError(
+                    field,
+                    f"row {lineno}: needs two columns, wavelength [nm] and "
+                    "irradiance [W m^-2 nm^-1]",
+                    ",".join(row),
+                )
             first, seen_row = not seen_row, True
             try:
                 a, b = float(row[0]), float(row[1])
@@ -120,8 +129,12 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
             if b < 0:
                 raise InputError(field, f"row {lineno}: irradiance must be >= 0 W m^-2 nm^-1", b)
             if wl and a <= wl[-1]:
-                raise InputError(field, f"row {lineno}: wavelengths must be strictly increasing "
-                                 f"(previous row {rows[-1]} has {wl[-1]:g} nm)", a)
+                raise InputError(
+                    field,
+                    f"row {lineno}: wavelengths must be strictly increasing "
+                    f"(previous row {rows[-1]} has {wl[-1]:g} nm)",
+                    a,
+                )
             wl.append(a)
             irr.append(b)
             rows.append(lineno)
