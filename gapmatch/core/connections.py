@@ -222,7 +222,8 @@ def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
     -----
     The open-circuit voltage is the root of ``ln G - ln(G - J(V))`` with
     ``G = J(-inf)``, a nearly linear, concave and decreasing function of ``V`` on which
-    Newton's method converges in a few steps even far in the exponential regime.
+    Newton's method converges in a few steps even far in the exponential regime. The
+    maximum power point is then bracketed by ``[0, V_oc]``.
     """
     r = np.broadcast_to(np.asarray(ratio, dtype=float), d.jph.shape)
     voc_j = d.voc()
@@ -252,8 +253,10 @@ def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
         return (d.dcurrent(vk) / r**2).sum(axis=1) / (g_sat - jt)
 
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        v = maximise_concave(grad, hess, lo, hi, x0)
-        voc = maximise_concave(log_balance, dlog_balance, np.minimum(v, hi), hi, hi)
+        # open circuit first: it bounds the maximum power point from above and keeps the
+        # Newton iteration out of the steep exponential regime of forward-biased strings
+        voc = maximise_concave(log_balance, dlog_balance, np.min(r * voc_j, axis=1), hi, hi)
+        v = maximise_concave(grad, hess, lo, voc, np.clip(x0, lo, voc))
     vk = v[:, None] / r
     jk = d.current(vk)
     p = (vk * jk).sum(axis=1)

@@ -42,7 +42,8 @@ def maximise_concave(
     x0 : numpy.ndarray
         Starting points inside the bracket.
     xtol_rel : float
-        Stop when every Newton step is below ``xtol_rel * (hi0 - lo0)``.
+        Stop when every Newton step is below ``xtol_rel * (hi0 - lo0)`` plus four units
+        in the last place of the iterate.
     max_iter : int
         Iteration cap (reached only by pathological input).
 
@@ -67,6 +68,8 @@ def maximise_concave(
         xn = np.where(bad, 0.5 * (lo + hi), xn)
         step = np.abs(xn - x)
         x = xn
-        if np.all((step <= xtol_rel * scale) | (g == 0) | (hi - lo <= xtol_rel * scale)):
+        # tolerance: relative to the bracket, but never below a few units in the last place
+        tol = xtol_rel * scale + 4.0 * np.spacing(np.abs(x))
+        if np.all((step <= tol) | (g == 0) | (hi - lo <= tol)):
             break
     return x
