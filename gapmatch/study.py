@@ -284,7 +284,9 @@ class Table(Field):
                 raise InputError(kp, f"is required: {spec.describe()}")
             else:
                 d = spec.default
-                out[key] = d() if callable(d) else d
+                d = d() if callable(d) else d
+                # an omitted table gets every default of its own keys
+                out[key] = spec.check(d, kp) if isinstance(spec, Table) else d
         return out
 
 

@@ -16,6 +16,7 @@ from .sections import (
     SectionOutput,
     default_sections,
     esc,
+    para,
     register_section,
     table,
 )
@@ -29,6 +30,7 @@ __all__ = [
     "build_report",
     "default_sections",
     "esc",
+    "para",
     "register_section",
     "render_page",
     "table",

@@ -50,6 +50,7 @@ __all__ = [
     "register_section",
     "default_sections",
     "esc",
+    "para",
     "table",
 ]
 
