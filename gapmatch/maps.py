@@ -586,7 +586,8 @@ def compute_map(
     ----------
     connections : sequence of str
         Any of ``"series"``, ``"independent"``, ``"voltage-matched"`` (default the first
-        two).
+        two). Voltage matching tries every small cell ratio at every point: about 400 times
+        slower than series (a minute for 201 x 201 points), and at most 3 junctions.
     x_range_eV, y_range_eV : tuple of float
         First and last gap of each axis [eV], within 0.1-5.0; ``y_range_eV`` defaults
         to ``x_range_eV``.
@@ -658,6 +659,13 @@ def compute_map(
         n = base.size
         if not 2 <= n <= MAX_JUNCTIONS:
             raise InputError("stack_eV", f"needs 2 to {MAX_JUNCTIONS} gaps", list(base))
+    if "voltage-matched" in conns and n > 3:
+        raise InputError(
+            "connections",
+            "voltage-matched maps need at most 3 junctions "
+            "(the cell ratio is chosen automatically)",
+            list(base),
+        )
     if axes is None:
         axes = (1, n)
     try:

@@ -382,6 +382,13 @@ STUDY_SCHEMA = Table(
                 "others": Choice(("fixed", "optimised"), default="fixed"),
                 "free_range_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [0.3, 3.0]),
                 "tolerance_pct": Num(0.0, 100.0, "%", low_open=True, default=1.0),
+                "connections": List(
+                    Choice(CONNECTIONS),
+                    min_len=1,
+                    max_len=len(CONNECTIONS),
+                    unique=True,
+                    default=None,
+                ),
             },
             default=dict,
         ),
@@ -521,8 +528,14 @@ class Study:
 
     @property
     def map_connections(self) -> list[str]:
-        """Connections the map is computed for (the study's connections)."""
-        return list(self.connections)
+        """Connections the map is computed for: ``map.connections`` if given, else the
+        study's series and independent connections (voltage-matched maps search cell
+        ratios at every point and take about a minute for 201 x 201 points, so they are
+        mapped only when ``map.connections`` asks for them)."""
+        if self.map.get("connections"):
+            return list(self.map["connections"])
+        c = [x for x in self.connections if x != "voltage-matched"]
+        return c or ["series", "independent"]
 
     def map_kwargs(self) -> dict:
         """Keyword arguments of :func:`gapmatch.maps.compute_map`."""

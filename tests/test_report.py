@@ -7,6 +7,7 @@ import json
 import re
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pytest
 from plotly.offline import get_plotlyjs
@@ -200,3 +201,25 @@ bottom_gap_eV = 0.93
     assert "RE-OPTIMISED" in rep.html
     s = rep.summary["map"]
     assert s["others"] == "optimised" and len(s["connections"]["series"]["optimum"]["gaps_eV"]) == 3
+
+
+def test_matched_line_has_equal_photocurrents():
+    from gapmatch.maps import compute_map
+    from gapmatch.report.figures import matched_line
+
+    m = compute_map(["series"], x_range_eV=(1.4, 2.2), y_range_eV=(0.6, 1.6), step_eV=0.01)
+    x, y = matched_line(m)
+    ok = np.isfinite(y)
+    assert ok.sum() > 50
+    res = gm.evaluate(np.column_stack([x[ok], y[ok]]), "series")
+    j = res.solution.jph
+    # linear interpolation across one 0.01 eV step: the bottom photocurrent changes by
+    # about 0.3 mA cm^-2 per step, so the ratio is within 1 % of matched
+    assert np.all(np.abs(j[:, 0] / j[:, 1] - 1) < 0.01)
+
+
+def test_voltage_matched_map_only_on_request():
+    base = '[study]\nname = "v"\ntitle = "v"\nconnections = ["series", "voltage-matched"]\n'
+    assert parse_study(base).map_connections == ["series"]
+    st = parse_study(base + '[map]\nconnections = ["voltage-matched"]\n')
+    assert st.map_connections == ["voltage-matched"]

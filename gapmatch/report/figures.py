@@ -415,7 +415,7 @@ def mismatch_figure(m: MapResult, connection: str = "series") -> go.Figure:
 def cut_figure(cut: CutResult, materials: Sequence = (), title: str = "") -> go.Figure:
     """Efficiency versus one junction's gap (the others fixed)."""
     fig = go.Figure()
-    for c, e in cut.efficiency.items():
+    for k_c, (c, e) in enumerate(cut.efficiency.items()):
         g, best = cut.optimum(c)
         fig.add_trace(
             go.Scatter(
@@ -435,7 +435,7 @@ def cut_figure(cut: CutResult, materials: Sequence = (), title: str = "") -> go.
                 mode="markers+text",
                 showlegend=False,
                 text=[f"{best:.2f} % at {g:.2f} eV"],
-                textposition="top center",
+                textposition="bottom right" if k_c % 2 else "top left",
                 marker=dict(symbol="star", size=13, color=_CONN_COLOUR.get(c, INK)),
                 hovertemplate=f"best {c}: %{{y:.2f}} % at %{{x:.3f}} eV<extra></extra>",
             )
@@ -474,8 +474,9 @@ def cut_figure(cut: CutResult, materials: Sequence = (), title: str = "") -> go.
         if k + 1 != cut.junction
     )
     fig.update_xaxes(title=f"E<sub>g,{cut.junction}</sub> [eV] ({fixed})", gridcolor="#e2dccf")
+    top = max(100 * float(np.max(e)) for e in cut.efficiency.values())
     fig.update_yaxes(
-        title="efficiency [%]", rangemode="tozero", gridcolor="#e2dccf", ticksuffix=" %"
+        title="efficiency [%]", range=[0, 1.15 * top], gridcolor="#e2dccf", ticksuffix=" %"
     )
     return fig
 
@@ -590,7 +591,9 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
     fig = make_subplots(
         rows=1,
         cols=len(panels),
-        subplot_titles=[f"{p['connection']} connection" for p in panels],
+        subplot_titles=[
+            f"{p['connection']} connection: {p['stack']['efficiency_pct']:.2f} %" for p in panels
+        ],
         horizontal_spacing=0.09,
     )
     for col, p in enumerate(panels, start=1):
@@ -657,7 +660,7 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
                     legendgroup="mpp",
                     showlegend=True,
                     text=[f"{d['efficiency_pct']:.2f} %"],
-                    textposition="top right",
+                    textposition="top left",
                     marker=dict(
                         symbol="star", size=14, color="#D55E00", line=dict(color=INK, width=1)
                     ),

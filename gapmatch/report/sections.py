@@ -228,6 +228,10 @@ class ReportContext:
             base[n - 1] = self.study.cut["bottom_gap_eV"]
             lo, hi = m["x_range_eV"] if m["axes"][0] == 1 else (0.5, 2.5)
             step = self.study.cut["step_eV"]
+            # only top gaps above every other gap (physical order)
+            lo = max(lo, round(max(base[1:]) + step, 9))
+            if lo >= hi:
+                hi = min(lo + 1.5, 5.0)
             vals = np.round(lo + step * np.arange(int(np.floor((hi - lo) / step + 1e-9)) + 1), 9)
             return compute_cut(
                 base, 1, vals, self.study.connections, spectrum=self.spectrum, **self._cell_kwargs()
@@ -645,6 +649,22 @@ def jv_section(ctx: ReportContext) -> SectionOutput:
     return SectionOutput(blocks)
 
 
+def _integration_words(spec) -> str:
+    if spec.is_blackbody:
+        return (
+            "Blackbody sun: photon and power integrals are exact (polylogarithms); "
+            "efficiencies are normalised to the diluted blackbody's own integral."
+        )
+    src = getattr(spec, "source", "")
+    return (
+        "Integration rule: photon flux and irradiance per nm are taken as linear "
+        "between the tabulated wavelengths (the trapezoid rule on the table"
+        + (f" of {src}" if src else "")
+        + "); efficiencies are normalised to the "
+        "spectrum's own integral (not a nominal 1000 W m⁻²) unless the study rescales it."
+    )
+
+
 @register_section("assumptions", "Assumptions and cautions")
 def assumptions_section(ctx: ReportContext) -> SectionOutput:
     """Assumptions of the model and cautions on reading the results."""
@@ -663,9 +683,7 @@ def assumptions_section(ctx: ReportContext) -> SectionOutput:
         "luminescent coupling.",
         "Absorptance is a step: every photon above a junction's gap that the junctions above "
         "did not take is absorbed and yields one electron-hole pair; nothing below the gap.",
-        "Photon fluxes are integrated over the tabulated spectrum (piecewise-linear "
-        "cumulative integration in photon energy); efficiencies are normalised to the "
-        "spectrum's own integral, unless the study rescales it.",
+        _integration_words(spec),
         "Series connection: one current through all junctions (current matching); "
         "independent connection: each junction at its own maximum power point; maximum "
         "power points are solved exactly, not read off a grid of voltages.",
