@@ -6,6 +6,8 @@ import hashlib
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from gapmatch import InputError
 from gapmatch.cli import main
@@ -143,3 +145,68 @@ def test_cli_invalid_study_writes_nothing(tmp_path, capsys):
     assert err_text.startswith("gapmatch report: error: ") and "map.step_eV" in err_text
     assert str(bad) in err_text
     assert not out.exists()
+
+
+_KEYS = [
+    ("conditions", "temperature_K"),
+    ("conditions", "ere"),
+    ("conditions", "spectrum"),
+    ("conditions", "concentration"),
+    ("map", "step_eV"),
+    ("map", "x_range_eV"),
+    ("map", "stack_eV"),
+    ("map", "axes"),
+    ("map", "others"),
+    ("cut", "bottom_gap_eV"),
+    ("study", "sections"),
+    ("study", "connections"),
+]
+_VALUES = st.one_of(
+    st.integers(-(10**6), 10**6),
+    st.floats(allow_nan=False, allow_infinity=False),
+    st.booleans(),
+    st.text(st.characters(blacklist_categories=("Cs", "Cc")), max_size=8),
+    st.lists(st.floats(-10, 10, allow_nan=False), max_size=7),
+    st.lists(st.integers(-3, 8), max_size=4),
+)
+
+
+@given(key=st.sampled_from(_KEYS), value=_VALUES)
+@settings(max_examples=200, deadline=None)
+def test_any_value_is_accepted_or_one_input_error(key, value):
+    # robustness: whatever a user writes under a known key, validation either accepts it
+    # or raises InputError naming that key (never another exception)
+    import tomllib
+
+    table, name = key
+    data = {"study": {"name": "t", "title": "t"}}
+    data.setdefault(table, {})[name] = value
+    text = _to_toml(data)
+    tomllib.loads(text)  # the generated text itself is valid TOML
+    try:
+        parse_study(text)
+    except InputError as exc:
+        assert exc.field.startswith(f"{table}.") or exc.field.startswith("map.")
+
+
+def _to_toml(data: dict) -> str:
+    import json
+
+    lines = []
+    for table, kv in data.items():
+        lines.append(f"[{table}]")
+        for k, v in kv.items():
+            lines.append(f"{k} = {_tv(v, json)}")
+    return "\n".join(lines) + "\n"
+
+
+def _tv(v, json):
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, float):
+        return repr(v) if "e" not in repr(v) or "." in repr(v) else repr(v).replace("e", ".0e")
+    if isinstance(v, list):
+        return "[" + ", ".join(_tv(x, json) for x in v) + "]"
+    if isinstance(v, str):
+        return json.dumps(v, ensure_ascii=False)
+    return str(v)

@@ -363,7 +363,8 @@ def map_section(ctx: ReportContext) -> SectionOutput:
                 materials=st.materials,
                 stacks=st.stacks,
                 stack_efficiency=_stack_eff(ctx, c),
-                title=f"Efficiency map, {c} connection",
+                title=f"Efficiency map, {c} connection"
+                + ("" if m.others == "none" else f" (other junctions {m.others})"),
             )
         )
     ridges = []
