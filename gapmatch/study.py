@@ -618,7 +618,7 @@ def load_study(path: str | Path) -> Study:
     """
     p = Path(path)
     if not p.is_file():
-        raise InputError("study file", "not found (give the path of a .toml study file)", str(p))
+        raise InputError(str(p), "study file not found (give the path of a .toml file)")
     raw = p.read_bytes()
     try:
         text = raw.decode("utf-8")

@@ -223,3 +223,41 @@ def test_voltage_matched_map_only_on_request():
     assert parse_study(base).map_connections == ["series"]
     st = parse_study(base + '[map]\nconnections = ["voltage-matched"]\n')
     assert st.map_connections == ["voltage-matched"]
+    st = parse_study(
+        base.replace('name = "v"', 'name = "v"\nsections = ["stacks", "jv"]')
+        + '[[stacks]]\nname = "s"\ngaps_eV = [1.7, 1.12]\n'
+    )
+    rep = build_report(st, progress=False)
+    vm = gm.evaluate([1.7, 1.12], "voltage-matched").efficiency[0]
+    assert rep.summary["stacks"]["s"]["voltage-matched"]["efficiency_pct"] == pytest.approx(
+        100 * vm, rel=1e-12
+    )
+
+
+@pytest.mark.filterwarnings("error")
+def test_other_conditions_build_cleanly():
+    text = """
+[study]
+name = "bb"
+title = "Blackbody sun at 100 suns"
+[conditions]
+spectrum = "blackbody"
+sun_temperature_K = 5800
+concentration = 100
+temperature_K = 320
+ere = 0.01
+dark_current = "bose-einstein"
+[map]
+step_eV = 0.05
+[[stacks]]
+name = "s"
+gaps_eV = [1.7, 1.12]
+[[materials]]
+name = "m"
+gap_range_eV = [1.0, 1.2]
+"""
+    rep = build_report(parse_study(text), progress=False)
+    assert "Blackbody sun: photon and power integrals are exact" in rep.html
+    assert "concentration 100 suns" in rep.html and "Cell temperature 320 K" in rep.html
+    assert rep.summary["map"]["conditions"]["dark_current"] == "bose-einstein"
+    assert set(rep.summary["map"]["connections"]) == {"series", "independent"}

@@ -636,15 +636,22 @@ def jv_section(ctx: ReportContext) -> SectionOutput:
         panels = []
         for conn in st.connections:
             r = ctx.stack_results[(s.name, conn)]
-            curves = jv_curve(
-                r,
-                0,
-                ctx.spectrum,
-                points=120,
-                temperature_K=c["temperature_K"],
-                ere=c["ere"],
-                dark_current=c["dark_current"],
-            )
+            # jv_curve evaluates every junction's diode at each junction's voltages and
+            # keeps one column; with the Bose-Einstein form the unused columns can pass a
+            # junction's gap and warn, so silence that and keep finite points only
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                curves = jv_curve(
+                    r,
+                    0,
+                    ctx.spectrum,
+                    points=120,
+                    temperature_K=c["temperature_K"],
+                    ere=c["ere"],
+                    dark_current=c["dark_current"],
+                )
+            curves["junctions"] = [
+                (v[np.isfinite(j)], j[np.isfinite(j)]) for v, j in curves["junctions"]
+            ]
             panels.append({"connection": conn, "curves": curves, "stack": r.stack(0)})
         blocks.append(figs.jv_figure(panels, s.name))
     return SectionOutput(blocks)
