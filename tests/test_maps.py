@@ -212,3 +212,42 @@ def test_bad_input(kwargs, field):
 def test_grid_axis_includes_end():
     g = grid_axis(0.5, 2.5, 0.01)
     assert g.size == 201 and g[0] == 0.5 and g[-1] == 2.5
+
+
+def test_cli_map_writes_grid_and_summary(tmp_path, capsys):
+    from gapmatch.cli import main
+
+    prefix = tmp_path / "m"
+    code = main(
+        [
+            "map",
+            "--range",
+            "1.4",
+            "1.8",
+            "--y-range",
+            "0.8",
+            "1.1",
+            "--step",
+            "0.05",
+            "--out",
+            str(prefix),
+        ]
+    )
+    out = capsys.readouterr().out
+    assert code == 0 and "series" in out and "not ratings" in out
+    grid = (tmp_path / "m_map.csv").read_text().splitlines()
+    assert grid[0].startswith("gap_1_eV,gap_2_eV,descending,efficiency_series_pct")
+    assert len(grid) == 1 + 9 * 7
+    s = json.loads((tmp_path / "m_summary.json").read_text())
+    opt = s["connections"]["independent"]["optimum"]
+    ref = gm.evaluate(opt["gaps_eV"], "independent").efficiency[0]
+    assert opt["efficiency"] == pytest.approx(float(ref), rel=1e-9)  # same engine
+
+
+def test_cli_map_bad_input_is_one_line(tmp_path, capsys):
+    from gapmatch.cli import main
+
+    code = main(["map", "--step", "-1", "--out", str(tmp_path / "x")])
+    err = capsys.readouterr().err.strip()
+    assert code == 2 and err.count("\n") == 0 and "step_eV" in err
+    assert not list(tmp_path.iterdir())

@@ -261,3 +261,17 @@ gap_range_eV = [1.0, 1.2]
     assert "concentration 100 suns" in rep.html and "Cell temperature 320 K" in rep.html
     assert rep.summary["map"]["conditions"]["dark_current"] == "bose-einstein"
     assert set(rep.summary["map"]["connections"]) == {"series", "independent"}
+
+
+def test_print_css_and_hover_units(demo):
+    _, page = demo
+    assert "@media print" in page
+    data = re.findall(r'class="gm-figure-data"[^>]*>(.*?)</script>', page, flags=re.S)
+    n = 0
+    for text in data:
+        for tr in json.loads(text)["data"]:
+            ht = tr.get("hovertemplate")
+            if ht:
+                n += 1
+                assert re.search(r"eV|nm|mA cm|\bV\b|%", ht), ht
+    assert n > 30
