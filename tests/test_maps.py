@@ -251,3 +251,14 @@ def test_cli_map_bad_input_is_one_line(tmp_path, capsys):
     err = capsys.readouterr().err.strip()
     assert code == 2 and err.count("\n") == 0 and "step_eV" in err
     assert not list(tmp_path.iterdir())
+
+
+@given(a=st.floats(0.05, 5.0), b=st.floats(0.05, 5.0))
+@settings(max_examples=30, deadline=None)
+def test_tolerance_windows_are_nested(small_map, a, b):
+    # a wider tolerance can only add points (definition; common practice, no source)
+    lo, hi = sorted((a, b))
+    for c in small_map.connections:
+        narrow = small_map.tolerance_window(c, lo).mask
+        wide = small_map.tolerance_window(c, hi).mask
+        assert np.all(wide[narrow])
