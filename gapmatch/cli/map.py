@@ -1,0 +1,143 @@
+"""``gapmatch map``: efficiency map over two junctions' gaps (grid CSV + JSON summary)."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from ..core.connections import CONNECTIONS
+from ..maps import OTHERS_MODES, compute_map
+from .options import add_condition_options, condition_kwargs
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "map",
+        help="efficiency map over a grid of two junctions' gaps",
+        description="Detailed-balance efficiency over a grid of top x bottom gaps (or any "
+        "two junctions of a longer stack) for several connections at once. Writes the grid "
+        "as a CSV (one row per point) and a JSON summary (optimum and tolerance window per "
+        "connection). Theoretical limits, not ratings.",
+    )
+    p.add_argument(
+        "--range",
+        dest="x_range",
+        type=float,
+        nargs=2,
+        default=[0.5, 2.5],
+        metavar=("LO", "HI"),
+        help="gaps of the first axis (default top) [eV], within 0.1-5.0 (default 0.5 2.5)",
+    )
+    p.add_argument(
+        "--y-range",
+        type=float,
+        nargs=2,
+        metavar=("LO", "HI"),
+        help="gaps of the second axis (default bottom) [eV] (default: as --range)",
+    )
+    p.add_argument(
+        "--step",
+        type=float,
+        default=0.01,
+        metavar="EV",
+        help="grid spacing [eV], 0.0005-1 (default 0.01)",
+    )
+    p.add_argument(
+        "--connections",
+        nargs="+",
+        default=["series", "independent"],
+        choices=CONNECTIONS,
+        help="connections to map (default series independent)",
+    )
+    p.add_argument(
+        "--stack",
+        type=float,
+        nargs="+",
+        metavar="EV",
+        help="3 or more junctions: a whole stack, top first [eV], whose other gaps "
+        "are held fixed or start the re-optimisation",
+    )
+    p.add_argument(
+        "--axes",
+        type=int,
+        nargs=2,
+        metavar=("I", "J"),
+        help="junction numbers on the x and y axes (1 = top; default top and bottom)",
+    )
+    p.add_argument(
+        "--others",
+        choices=OTHERS_MODES,
+        default="fixed",
+        help="junctions not on the axes: held fixed at --stack or re-optimised at "
+        "every point (default fixed)",
+    )
+    p.add_argument(
+        "--tolerance",
+        type=float,
+        default=1.0,
+        metavar="PCT",
+        help="tolerance window: absolute percent below the optimum (default 1)",
+    )
+    add_condition_options(p)
+    p.add_argument(
+        "--out", metavar="PREFIX", help="write PREFIX_map.csv and PREFIX_summary.json (atomically)"
+    )
+    p.add_argument("--json", action="store_true", help="print the JSON summary")
+    p.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    kw = condition_kwargs(args)
+    m = compute_map(
+        args.connections,
+        x_range_eV=tuple(args.x_range),
+        y_range_eV=tuple(args.y_range) if args.y_range else None,
+        step_eV=args.step,
+        stack_eV=args.stack,
+        axes=args.axes,
+        others=args.others,
+        progress=lambda s: print(s, file=sys.stderr),
+        **kw,
+    )
+    summary = m.summary(args.tolerance)
+    if args.out:
+        from ..report.builder import write_file
+
+        prefix = Path(args.out)
+        write_file(f"{prefix}_map.csv", m.to_frame().to_csv(index=False, float_format="%.6g"))
+        write_file(f"{prefix}_summary.json", json.dumps(summary, indent=2))
+        print(f"wrote {prefix}_map.csv and {prefix}_summary.json", file=sys.stderr)
+    if args.json:
+        print(json.dumps(summary, indent=2))
+        return 0
+    print(format_summary(summary))
+    return 0
+
+
+def format_summary(s: dict) -> str:
+    """Readable text of a map summary."""
+    g = s["grid"]
+    lines = [
+        f"Map of {s['axis_labels'][0]} {g['x_min_eV']:.3f}-{g['x_max_eV']:.3f} eV x "
+        f"{s['axis_labels'][1]} {g['y_min_eV']:.3f}-{g['y_max_eV']:.3f} eV "
+        f"({g['nx']} x {g['ny']} points), {s['n_junctions']} junctions"
+        + ("" if s["others"] == "none" else f", others {s['others']}"),
+        f"Spectrum: {s['conditions']['spectrum']}",
+        "",
+        f"{'connection':>16} {'efficiency [%]':>15} {'gaps, top first [eV]':>26} "
+        f"{'window x [eV]':>14} {'window y [eV]':>14}",
+    ]
+    for c, d in s["connections"].items():
+        o, w = d["optimum"], d["tolerance_window"]
+        gaps = " / ".join(f"{x:.3f}" for x in o["gaps_eV"])
+        wx = f"{w['x_range_eV'][0]:.2f}-{w['x_range_eV'][1]:.2f}"
+        wy = f"{w['y_range_eV'][0]:.2f}-{w['y_range_eV'][1]:.2f}"
+        lines.append(f"{c:>16} {o['efficiency_pct']:15.2f} {gaps:>26} {wx:>14} {wy:>14}")
+    within = next(iter(s["connections"].values()))["tolerance_window"]["within_pct"]
+    lines.append(f"Window: every grid point within {within:g} % (absolute) of the optimum.")
+    lines.append(
+        "Detailed-balance limits under ideal assumptions: theoretical ceilings, not ratings."
+    )
+    return "\n".join(lines)

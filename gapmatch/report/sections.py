@@ -1,0 +1,723 @@
+"""Report sections: a registry of named builders, and the built-in sections.
+
+A section is a function ``build(ctx: ReportContext) -> SectionOutput`` registered under a
+name with :func:`register_section`. A study file selects sections by name, in order, in
+``study.sections``; sections registered with ``default=True`` are used when it gives
+none. A builder returns blocks in display order: HTML strings (the builder must escape
+every user string with :func:`esc`) and plotly figures (embedded by the page builder),
+plus data files written beside the report.
+
+Expensive shared results are computed once through the context's cache
+(``ctx.get(key, factory)``); ``ctx.map``, ``ctx.stack_results`` and ``ctx.cut`` are the
+built-in ones.
+
+Adding a section (e.g. in ``gapmatch/report/search_section.py``)::
+
+    from gapmatch.report.sections import SectionOutput, esc, register_section, table
+
+    @register_section("search", "Band-gap search", default=False)
+    def search_section(ctx):
+        res = ctx.get("search", lambda: run_search(ctx.study.extra["search"]))
+        return SectionOutput(blocks=["<p>...</p>", make_figure(res)],
+                             data={"search.csv": res.to_frame()})
+
+and import that module in :mod:`gapmatch.report` so the registration runs.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import plotly.graph_objects as go
+
+from ..api import evaluate, jv_curve
+from ..maps import CutResult, MapResult, compute_cut, compute_map
+from ..results import BatchResult, Conditions
+from ..study import Study
+from . import figures as figs
+
+__all__ = [
+    "SECTIONS",
+    "DEFAULT_SECTIONS",
+    "Section",
+    "SectionOutput",
+    "ReportContext",
+    "register_section",
+    "default_sections",
+    "esc",
+    "para",
+    "table",
+]
+
+
+def esc(s: Any) -> str:
+    """HTML-escape any user value for the page."""
+    return html.escape(str(s), quote=True)
+
+
+@dataclass
+class SectionOutput:
+    """What a section contributes.
+
+    Attributes
+    ----------
+    blocks : list
+        In display order: ``str`` (safe HTML) or :class:`plotly.graph_objects.Figure`.
+    data : dict
+        File suffix (e.g. ``"map.csv"``) -> DataFrame (written as CSV) or dict (JSON),
+        written beside the report as ``<study-name>_<suffix>``.
+    summary : dict
+        JSON-ready entries merged into ``<study-name>_summary.json`` under the section's
+        name.
+    """
+
+    blocks: list = field(default_factory=list)
+    data: dict = field(default_factory=dict)
+    summary: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Section:
+    """A registered report section."""
+
+    name: str
+    title: str
+    build: Callable[[ReportContext], SectionOutput]
+    default: bool = True
+
+
+#: name -> Section, in registration order
+SECTIONS: dict[str, Section] = {}
+
+
+def register_section(name: str, title: str, *, default: bool = True):
+    """Decorator registering ``build(ctx) -> SectionOutput`` as report section ``name``.
+
+    Parameters
+    ----------
+    name : str
+        Name used in a study file's ``study.sections`` list.
+    title : str
+        Heading shown in the report.
+    default : bool
+        Include the section when a study lists no sections.
+    """
+
+    def deco(fn: Callable[[ReportContext], SectionOutput]):
+        if name in SECTIONS:
+            raise ValueError(f"report section {name!r} is already registered")
+        SECTIONS[name] = Section(name, title, fn, default)
+        return fn
+
+    return deco
+
+
+def default_sections() -> list[str]:
+    """Names of the sections used when a study gives none."""
+    return [s.name for s in SECTIONS.values() if s.default]
+
+
+class _Defaults(Sequence):
+    """Live view of :func:`default_sections` (so later registrations are included)."""
+
+    def __getitem__(self, i):
+        return default_sections()[i]
+
+    def __len__(self):
+        return len(default_sections())
+
+
+DEFAULT_SECTIONS = _Defaults()
+
+
+@dataclass
+class ReportContext:
+    """Everything a section builder needs, with a cache of shared results.
+
+    Attributes
+    ----------
+    study : Study
+        The validated study.
+    cache : dict
+        Shared results by key (see :meth:`get`).
+    """
+
+    study: Study
+    cache: dict = field(default_factory=dict)
+
+    def get(self, key: str, factory: Callable[[], Any]) -> Any:
+        """The cached result ``key``, computing it with ``factory()`` the first time."""
+        if key not in self.cache:
+            self.cache[key] = factory()
+        return self.cache[key]
+
+    # ---- built-in shared results -------------------------------------------------------
+    @property
+    def spectrum(self):
+        """The study's spectrum (scaled as the study says)."""
+        from ..io.spectra import get_spectrum
+
+        c = self.study.conditions
+
+        def make():
+            return get_spectrum(
+                c["spectrum"],
+                spectrum_file=c["spectrum_file"],
+                sun_temperature_K=c["sun_temperature_K"],
+                irradiance_W_m2=c["irradiance_W_m2"],
+                concentration=c["concentration"],
+            )
+
+        return self.get("spectrum", make)
+
+    def _cell_kwargs(self) -> dict:
+        c = self.study.conditions
+        return dict(temperature_K=c["temperature_K"], ere=c["ere"], dark_current=c["dark_current"])
+
+    @property
+    def map(self) -> MapResult:
+        """The study's efficiency map."""
+
+        def make():
+            kw = self.study.map_kwargs()
+            for k in (
+                "spectrum",
+                "spectrum_file",
+                "sun_temperature_K",
+                "irradiance_W_m2",
+                "concentration",
+            ):
+                kw.pop(k, None)
+            return compute_map(spectrum=self.spectrum, **kw)
+
+        return self.get("map", make)
+
+    @property
+    def map_connections(self) -> list[str]:
+        """Connections on the map."""
+        return list(self.map.connections)
+
+    @property
+    def stack_results(self) -> dict[tuple[str, str], BatchResult]:
+        """(stack name, connection) -> evaluation of every stack of interest."""
+
+        def make():
+            out = {}
+            for s in self.study.stacks:
+                for c in self.study.connections:
+                    out[(s.name, c)] = evaluate(
+                        list(s.gaps_eV), c, self.spectrum, **self._cell_kwargs()
+                    )
+            return out
+
+        return self.get("stacks", make)
+
+    @property
+    def cut(self) -> CutResult:
+        """Efficiency versus the top gap at the study's fixed bottom gap."""
+
+        def make():
+            m = self.study.map
+            n = self.study.n_junctions
+            base = list(m["stack_eV"]) if m["stack_eV"] is not None else [2.0, 1.0]
+            base[n - 1] = self.study.cut["bottom_gap_eV"]
+            lo, hi = m["x_range_eV"] if m["axes"][0] == 1 else (0.5, 2.5)
+            step = self.study.cut["step_eV"]
+            # only top gaps above every other gap (physical order)
+            lo = max(lo, round(max(base[1:]) + step, 9))
+            if lo >= hi:
+                hi = min(lo + 1.5, 5.0)
+            vals = np.round(lo + step * np.arange(int(np.floor((hi - lo) / step + 1e-9)) + 1), 9)
+            return compute_cut(
+                base, 1, vals, self.study.connections, spectrum=self.spectrum, **self._cell_kwargs()
+            )
+
+        return self.get("cut", make)
+
+    @property
+    def tolerance_pct(self) -> float:
+        return float(self.study.map["tolerance_pct"])
+
+
+# ---- HTML helpers ------------------------------------------------------------------------
+def table(
+    header: Sequence[str],
+    rows: Sequence[Sequence[Any]],
+    *,
+    caption: str = "",
+    numeric: Sequence[bool] | None = None,
+) -> str:
+    """An HTML table; every cell and header is escaped.
+
+    Parameters
+    ----------
+    header : sequence of str
+        Column headings (units in brackets).
+    rows : sequence of sequences
+        Cell values (already formatted strings or numbers).
+    caption : str
+        Caption (escaped).
+    numeric : sequence of bool, optional
+        Right-align these columns.
+    """
+    num = list(numeric) if numeric is not None else [False] * len(header)
+    th = "".join(
+        f'<th scope="col"{" class=num" if n else ""}>{esc(h)}</th>'
+        for h, n in zip(header, num, strict=False)
+    )
+    body = "".join(
+        "<tr>"
+        + "".join(
+            f"<td{' class=num' if n else ''}>{esc(c)}</td>" for c, n in zip(r, num, strict=False)
+        )
+        + "</tr>"
+        for r in rows
+    )
+    cap = f"<caption>{esc(caption)}</caption>" if caption else ""
+    return f'<table class="gm-table">{cap}<thead><tr>{th}</tr></thead><tbody>{body}</tbody></table>'
+
+
+def para(text: str) -> str:
+    """A paragraph of escaped text."""
+    return f"<p>{esc(text)}</p>"
+
+
+def _f(x, spec: str = ".2f") -> str:
+    return "–" if x is None or (isinstance(x, float) and x != x) else format(x, spec)
+
+
+def _stack_eff(ctx: ReportContext, conn: str) -> dict[str, float]:
+    return {
+        s.name: 100 * float(ctx.stack_results[(s.name, conn)].efficiency[0])
+        for s in ctx.study.stacks
+        if (s.name, conn) in ctx.stack_results
+    }
+
+
+def _map_words(m: MapResult) -> str:
+    if m.others == "none":
+        return (
+            "Two-junction stacks: every combination of top and bottom gap on the grid. "
+            "Points whose top gap is not above the bottom gap are left blank."
+        )
+    others = [k + 1 for k in range(m.n_junctions) if k + 1 not in m.axes]
+    which = ", ".join(f"junction {k}" for k in others)
+    if m.others == "fixed":
+        vals = ", ".join(f"{m.base_gaps_eV[k - 1]:.2f} eV" for k in others)
+        return (
+            f"{m.n_junctions}-junction stacks; the map varies junctions {m.axes[0]} and "
+            f"{m.axes[1]} (1 = top). The other gaps are held FIXED: {which} at {vals}."
+        )
+    lo, hi = m.settings.get("free_range_eV", (0.3, 3.0))
+    return (
+        f"{m.n_junctions}-junction stacks; the map varies junctions {m.axes[0]} and "
+        f"{m.axes[1]} (1 = top). The other gaps ({which}) are RE-OPTIMISED at every "
+        f"point within {lo:.2f}-{hi:.2f} eV (coarse grid, then a batched pattern search)."
+    )
+
+
+# ---- built-in sections ----------------------------------------------------------------------
+@register_section("map", "Efficiency maps")
+def map_section(ctx: ReportContext) -> SectionOutput:
+    """Map per connection: labelled contours, optimum, ridge, tolerance window,
+    materials and stacks of interest."""
+    m = ctx.map
+    st = ctx.study
+    blocks = [
+        para(_map_words(m)),
+        para(
+            "Contours are iso-efficiency lines labelled in percent. The star marks the grid "
+            "optimum; the yellow line is the best-partner ridge (for each gap on the horizontal "
+            "axis, the partner gap that maximises efficiency); the dashed outline encloses every "
+            f"point within {ctx.tolerance_pct:g} absolute percent of the optimum. Candidate "
+            "materials appear as dotted lines (fixed gaps) or shaded bands (tunable windows); "
+            "diamonds mark the stacks of interest (S1, S2, ... as in the table of stacks)."
+        ),
+    ]
+    rows = []
+    for c in m.connections:
+        opt = m.optimum(c)
+        rows.append(
+            [c, " / ".join(f"{g:.3f}" for g in opt["gaps_eV"]), f"{opt['efficiency_pct']:.2f}"]
+        )
+    blocks.append(
+        table(
+            ["connection", "optimum gaps, top first [eV]", "efficiency [%]"],
+            rows,
+            caption="Grid optimum per connection",
+            numeric=[False, True, True],
+        )
+    )
+    for c in m.connections:
+        w = m.tolerance_window(c, ctx.tolerance_pct)
+        blocks.append(
+            figs.map_figure(
+                m,
+                c,
+                window=w,
+                materials=st.materials,
+                stacks=st.stacks,
+                stack_efficiency=_stack_eff(ctx, c),
+                title=f"Efficiency map, {c} connection"
+                + ("" if m.others == "none" else f" (other junctions {m.others})"),
+            )
+        )
+    ridges = []
+    for c in m.connections:
+        r = m.ridge(c)
+        r.insert(0, "connection", c)
+        ridges.append(r)
+    ridge = pd.concat(ridges, ignore_index=True).rename(
+        columns={"x_eV": f"gap_{m.axes[0]}_eV", "best_y_eV": f"best_gap_{m.axes[1]}_eV"}
+    )
+    return SectionOutput(
+        blocks,
+        data={"map.csv": m.to_frame(), "ridge.csv": ridge},
+        summary=m.summary(ctx.tolerance_pct),
+    )
+
+
+@register_section("tolerance", "Tolerance window")
+def tolerance_section(ctx: ReportContext) -> SectionOutput:
+    """The region within the tolerance of the optimum, as gap ranges."""
+    m = ctx.map
+    a0, a1 = m.axis_label(0), m.axis_label(1)
+    rows = []
+    for c in m.connections:
+        w = m.tolerance_window(c, ctx.tolerance_pct)
+        opt = m.optimum(c)
+        rows.append(
+            [
+                c,
+                f"{opt['efficiency_pct']:.2f}",
+                f"{w.level_pct:.2f}",
+                f"{w.x_range_eV[0]:.2f}–{w.x_range_eV[1]:.2f}",
+                f"{w.y_range_eV[0]:.2f}–{w.y_range_eV[1]:.2f}",
+                f"{w.y_range_at_opt_x_eV[0]:.2f}–{w.y_range_at_opt_x_eV[1]:.2f}",
+                f"{w.x_range_at_opt_y_eV[0]:.2f}–{w.x_range_at_opt_y_eV[1]:.2f}",
+                str(w.points),
+            ]
+        )
+    blocks = [
+        para(
+            f"Every grid point whose efficiency is at least the optimum minus "
+            f"{ctx.tolerance_pct:g} absolute percent. The overall ranges bound the whole window; "
+            "the ranges at the optimum hold the other gap at its optimal value. The window is "
+            "not a rectangle: not every combination inside the overall ranges qualifies."
+        ),
+        table(
+            [
+                "connection",
+                "optimum [%]",
+                "window edge [%]",
+                f"{a0} range [eV]",
+                f"{a1} range [eV]",
+                f"{a1} at optimal {a0} [eV]",
+                f"{a0} at optimal {a1} [eV]",
+                "grid points",
+            ],
+            rows,
+            caption=f"Within {ctx.tolerance_pct:g} % (absolute) of the optimum",
+            numeric=[False] + [True] * 7,
+        ),
+    ]
+    return SectionOutput(blocks)
+
+
+@register_section("difference", "Independent minus series connection")
+def difference_section(ctx: ReportContext) -> SectionOutput:
+    """Independent-minus-series efficiency map."""
+    m = ctx.map
+    if not {"series", "independent"} <= set(m.connections):
+        return SectionOutput(
+            [
+                para(
+                    "This map needs both series and independent connection "
+                    "in study.connections; it is left out."
+                )
+            ]
+        )
+    d = np.where(m.descending, m.difference(), np.nan)
+    iy, ix = np.unravel_index(np.nanargmin(d), d.shape)
+    return SectionOutput(
+        [
+            para(
+                "How much efficiency independent (four-/multi-terminal) connection gains over a "
+                "two-terminal series stack, in absolute percent. The gain is smallest along the "
+                "current-matched band, where both connections nearly coincide; far from it the "
+                "series stack is limited by its weakest photocurrent. Smallest difference on the "
+                "grid "
+                f"{d[iy, ix]:.2f} % at {m.x_eV[ix]:.2f} / {m.y_eV[iy]:.2f} eV."
+            ),
+            figs.difference_figure(m),
+        ]
+    )
+
+
+@register_section("mismatch", "Current mismatch (series connection)")
+def mismatch_section(ctx: ReportContext) -> SectionOutput:
+    """Photocurrent mismatch map of the series stack."""
+    m = ctx.map
+    if "series" not in m.connections:
+        return SectionOutput([para("Needs series connection in study.connections; left out.")])
+    return SectionOutput(
+        [
+            para(
+                "Ratio of the smallest to the largest junction photocurrent of the series stack "
+                "(1 = matched) under the study's spectrum. The orange line is where the two mapped "
+                "junctions generate equal photocurrent; a series stack loses the excess current of "
+                "the stronger junction away from it."
+            ),
+            figs.mismatch_figure(m, "series"),
+        ]
+    )
+
+
+@register_section("materials", "Candidate materials")
+def materials_section(ctx: ReportContext) -> SectionOutput:
+    """Table of candidate materials."""
+    mats = ctx.study.materials
+    if not mats:
+        return SectionOutput([para("The study lists no materials.")])
+    rows = [[mt.name, mt.describe_gap(), mt.role, mt.note] for mt in mats]
+    return SectionOutput(
+        [
+            para(
+                "Materials as given in the study file (fictional demo data "
+                "where the study says so). They are drawn on the maps and the "
+                "one-dimensional cut."
+            ),
+            table(["material", "band gap", "position", "note"], rows),
+        ]
+    )
+
+
+@register_section("stacks", "Stacks of interest")
+def stacks_section(ctx: ReportContext) -> SectionOutput:
+    """Full evaluation of every stack of interest."""
+    st = ctx.study
+    if not st.stacks:
+        return SectionOutput([para("The study lists no stacks of interest.")])
+    rows, frames, summ = [], [], {}
+    for k, s in enumerate(st.stacks, start=1):
+        for c in st.connections:
+            r = ctx.stack_results[(s.name, c)]
+            d = r.stack(0)
+            rows.append(
+                [
+                    f"S{k}",
+                    s.name,
+                    " / ".join(f"{g:.3f}" for g in s.gaps_eV),
+                    c,
+                    f"{d['efficiency_pct']:.2f}",
+                    f"{d['pmpp_W_m2']:.1f}",
+                    _f(d["voc_V"], ".3f"),
+                    _f(d["jsc_mA_cm2"], ".2f"),
+                    f"{d['ff']:.3f}",
+                    f"{d['mismatch_ratio']:.3f}",
+                    s.note,
+                ]
+            )
+            f = r.to_frame()
+            f.insert(0, "stack", s.name)
+            frames.append(f)
+            summ.setdefault(s.name, {})[c] = {
+                k: d[k]
+                for k in (
+                    "efficiency_pct",
+                    "gaps_eV",
+                    "pmpp_W_m2",
+                    "voc_V",
+                    "jsc_mA_cm2",
+                    "ff",
+                    "mismatch_ratio",
+                )
+            }
+    blocks = [
+        para(
+            "Each stack of interest evaluated at its exact maximum power point. For "
+            "independent connection the stack has no single pair of terminals, so "
+            "V_oc and J_sc are not defined (–)."
+        ),
+        table(
+            [
+                "mark",
+                "stack",
+                "gaps, top first [eV]",
+                "connection",
+                "efficiency [%]",
+                "P_mpp [W m⁻²]",
+                "V_oc [V]",
+                "J_sc [mA cm⁻²]",
+                "FF [-]",
+                "J_min/J_max [-]",
+                "note",
+            ],
+            rows,
+            numeric=[False, False, True, False] + [True] * 6 + [False],
+        ),
+    ]
+    return SectionOutput(
+        blocks, data={"stacks.csv": pd.concat(frames, ignore_index=True)}, summary=summ
+    )
+
+
+@register_section("cut", "One-dimensional cut")
+def cut_section(ctx: ReportContext) -> SectionOutput:
+    """Efficiency versus top gap for the fixed bottom gap."""
+    cut = ctx.cut
+    bg = ctx.study.cut["bottom_gap_eV"]
+    rows = [[c, f"{cut.optimum(c)[0]:.3f}", f"{cut.optimum(c)[1]:.2f}"] for c in cut.efficiency]
+    return SectionOutput(
+        [
+            para(
+                f"Efficiency versus the top gap with the bottom gap fixed at {bg:.2f} eV"
+                + ("" if ctx.study.n_junctions == 2 else " and the middle gaps at map.stack_eV")
+                + ". Top-cell candidates are marked."
+            ),
+            figs.cut_figure(
+                cut, ctx.study.materials, title=f"Efficiency versus top gap, bottom gap {bg:.2f} eV"
+            ),
+            table(
+                ["connection", "best top gap [eV]", "efficiency [%]"],
+                rows,
+                numeric=[False, True, True],
+            ),
+        ],
+        data={"cut.csv": cut.to_frame()},
+        summary={
+            c: {"best_top_gap_eV": cut.optimum(c)[0], "efficiency_pct": cut.optimum(c)[1]}
+            for c in cut.efficiency
+        },
+    )
+
+
+@register_section("spectrum", "Spectrum and absorbed bands")
+def spectrum_section(ctx: ReportContext) -> SectionOutput:
+    """Spectrum with each junction's absorbed band shaded, per stack of interest."""
+    spec = ctx.spectrum
+    blocks = [
+        para(
+            f"Incident spectrum: {spec.describe()}. With step absorptance each "
+            "junction absorbs every photon above its gap that the junctions above it "
+            "did not; the shaded bands show which wavelengths feed which junction."
+        )
+    ]
+    stacks = ctx.study.stacks or []
+    if not stacks:
+        opt = ctx.map.optimum(ctx.map.connections[0])
+        blocks.append(figs.spectrum_figure(spec, opt["gaps_eV"], "map optimum"))
+    for s in stacks:
+        blocks.append(figs.spectrum_figure(spec, s.gaps_eV, s.name))
+    return SectionOutput(blocks)
+
+
+@register_section("jv", "Current–voltage curves")
+def jv_section(ctx: ReportContext) -> SectionOutput:
+    """J-V curves of every stack of interest with operating points."""
+    st = ctx.study
+    if not st.stacks:
+        return SectionOutput([para("The study lists no stacks of interest.")])
+    blocks = [
+        para(
+            "Each junction's own J–V curve from short circuit to open circuit, with "
+            "its operating point at the stack's maximum power (circles). For series "
+            "connection the whole stack's curve is drawn too and its maximum power "
+            "point starred."
+        )
+    ]
+    c = st.conditions
+    for s in st.stacks:
+        panels = []
+        for conn in st.connections:
+            r = ctx.stack_results[(s.name, conn)]
+            # jv_curve evaluates every junction's diode at each junction's voltages and
+            # keeps one column; with the Bose-Einstein form the unused columns can pass a
+            # junction's gap and warn, so silence that and keep finite points only
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                curves = jv_curve(
+                    r,
+                    0,
+                    ctx.spectrum,
+                    points=120,
+                    temperature_K=c["temperature_K"],
+                    ere=c["ere"],
+                    dark_current=c["dark_current"],
+                )
+            curves["junctions"] = [
+                (v[np.isfinite(j)], j[np.isfinite(j)]) for v, j in curves["junctions"]
+            ]
+            panels.append({"connection": conn, "curves": curves, "stack": r.stack(0)})
+        blocks.append(figs.jv_figure(panels, s.name))
+    return SectionOutput(blocks)
+
+
+def _integration_words(spec) -> str:
+    if spec.is_blackbody:
+        return (
+            "Blackbody sun: photon and power integrals are exact (polylogarithms); "
+            "efficiencies are normalised to the diluted blackbody's own integral."
+        )
+    src = getattr(spec, "source", "")
+    return (
+        "Integration rule: photon flux and irradiance per nm are taken as linear "
+        "between the tabulated wavelengths (the trapezoid rule on the table"
+        + (f" of {src}" if src else "")
+        + "); efficiencies are normalised to the "
+        "spectrum's own integral (not a nominal 1000 W m⁻²) unless the study rescales it."
+    )
+
+
+@register_section("assumptions", "Assumptions and cautions")
+def assumptions_section(ctx: ReportContext) -> SectionOutput:
+    """Assumptions of the model and cautions on reading the results."""
+    st = ctx.study
+    c = st.conditions
+    spec = ctx.spectrum
+    emission = Conditions("", 0.0).emission
+    items = [
+        f"Spectrum: {spec.describe()} (integral {spec.total_irradiance_W_m2:.2f} W m⁻², the "
+        "denominator of every efficiency).",
+        f"Cell temperature {c['temperature_K']:g} K; external radiative efficiency (ERE) "
+        f"{c['ere']:g} (1 = radiative limit; the dark current is divided by the ERE).",
+        f"Dark current: {c['dark_current']} form of the radiative recombination current "
+        "(detailed balance after Shockley and Queisser 1961 and De Vos 1980).",
+        f"Emission geometry: {emission}; no photon recycling between junctions, no "
+        "luminescent coupling.",
+        "Absorptance is a step: every photon above a junction's gap that the junctions above "
+        "did not take is absorbed and yields one electron-hole pair; nothing below the gap.",
+        _integration_words(spec),
+        "Series connection: one current through all junctions (current matching); "
+        "independent connection: each junction at its own maximum power point; maximum "
+        "power points are solved exactly, not read off a grid of voltages.",
+        f"Maps are evaluated on a grid of {st.map['step_eV']:g} eV; optima and ranges are "
+        "grid values (one step accuracy).",
+    ]
+    cautions = [
+        "These numbers are theoretical limits of idealised cells, not ratings, forecasts or "
+        "guarantees of any device. Real cells fall short of them through non-radiative "
+        "recombination, parasitic absorption, reflection, resistance and incomplete "
+        "collection.",
+        "For performance claims rely on accredited measurement, such as the IEC 60904 family "
+        "of standards, and for design decisions on licensed engineering practice.",
+        "Materials and stacks come from the study file; gapmatch does not check that a "
+        "material has the gap stated.",
+    ]
+    ul = "".join(f"<li>{esc(i)}</li>" for i in items)
+    uc = "".join(f"<li>{esc(i)}</li>" for i in cautions)
+    return SectionOutput(
+        [
+            f"<h3>Assumptions</h3><ul>{ul}</ul>",
+            f'<div class="gm-caution" role="note"><h3>Cautions</h3><ul>{uc}</ul></div>',
+        ]
+    )
+
+
+def figure_count(blocks: Sequence) -> int:
+    """Number of figures among ``blocks``."""
+    return sum(isinstance(b, go.Figure) for b in blocks)
