@@ -213,12 +213,12 @@ def jv_curve(result: BatchResult, i: int = 0, spectrum: str | Spectrum = "AM1.5G
     d = make_diodes(model, jph, gaps, t, e, 1.0)
     voc = d.voc()[0]
     curves = []
+    dk = make_diodes(model, np.repeat(jph, points, 0), np.repeat(gaps, points, 0), t, e, 1.0)
     for k in range(gaps.shape[1]):
         v = np.linspace(0.0, voc[k], points)
-        full = np.broadcast_to(v[:, None], (points, gaps.shape[1]))
-        dk = make_diodes(model, np.repeat(jph, points, 0), np.repeat(gaps, points, 0),
-                         t, e, 1.0)
-        curves.append((v, 0.1 * dk.current(full)[:, k]))
+        volts = np.zeros((points, gaps.shape[1]))  # other junctions at 0 V: always valid
+        volts[:, k] = v
+        curves.append((v, 0.1 * dk.current(volts)[:, k]))
     stack = None
     if result.connection == "series":
         jmin = jph.min()

@@ -258,3 +258,35 @@ def test_blackbody_concentration_identity():
     ]
     assert np.all(np.diff(effs) > 0)
     assert BlackbodySun(6000.0, MAX_CONCENTRATION).dilution == pytest.approx(1.0)
+
+
+def test_write_atomic_permissions_and_content(tmp_path):
+    import os
+    import stat
+
+    from gapmatch.io.atomic import write_atomic
+
+    p = write_atomic(tmp_path / "sub" / "a.txt", "hello")
+    assert p.read_text() == "hello"
+    umask = os.umask(0)
+    os.umask(umask)
+    # same permissions as a plain open() (0666 less the umask), not mkstemp's 0600
+    assert stat.S_IMODE(p.stat().st_mode) == 0o666 & ~umask
+    assert [x.name for x in p.parent.iterdir()] == ["a.txt"]  # no temporary file left
+
+
+@pytest.mark.parametrize("model", ["boltzmann", "bose-einstein"])
+def test_jv_curve_endpoints(model):
+    import warnings
+
+    r = gm.evaluate([1.8, 1.1], dark_current=model)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no invalid-value warnings from unused voltages
+        c = gm.jv_curve(r, 0, "AM1.5G", points=50, dark_current=model)
+    d = r.stack(0)
+    for (v, j), junction in zip(c["junctions"], d["junctions"], strict=True):
+        assert j[0] == pytest.approx(junction["jph_mA_cm2"], rel=1e-12)  # J(0) = J_ph
+        assert v[-1] == pytest.approx(junction["voc_V"], rel=1e-12)
+        assert abs(j[-1]) < 1e-6 * junction["jph_mA_cm2"]  # J(V_oc) = 0
+    v, j = c["stack"]
+    assert v[0] == pytest.approx(d["voc_V"], rel=1e-12)

@@ -103,11 +103,11 @@ def run(args: argparse.Namespace) -> int:
     )
     summary = m.summary(args.tolerance)
     if args.out:
-        from ..report.builder import write_file
+        from ..io.atomic import write_atomic
 
         prefix = Path(args.out)
-        write_file(f"{prefix}_map.csv", m.to_frame().to_csv(index=False, float_format="%.6g"))
-        write_file(f"{prefix}_summary.json", json.dumps(summary, indent=2))
+        write_atomic(f"{prefix}_map.csv", m.to_frame().to_csv(index=False, float_format="%.6g"))
+        write_atomic(f"{prefix}_summary.json", json.dumps(summary, indent=2))
         print(f"wrote {prefix}_map.csv and {prefix}_summary.json", file=sys.stderr)
     if args.json:
         print(json.dumps(summary, indent=2))

@@ -36,6 +36,11 @@ def write_atomic(path: str | os.PathLike, data: str | bytes, encoding: str = "ut
             fh.write(raw)
             fh.flush()
             os.fsync(fh.fileno())
+        # mkstemp creates the file owner-only; give it the permissions a plain open()
+        # would (0666 less the umask)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, dest)
     except BaseException:
         try:

@@ -24,7 +24,7 @@ from ..io.atomic import write_atomic
 from ..study import Study
 from .sections import SECTIONS, ReportContext, SectionOutput, esc
 
-__all__ = ["Report", "build_report", "write_report", "write_file", "render_page"]
+__all__ = ["Report", "build_report", "write_report", "render_page"]
 
 _CSS = """
 :root{--ink:#1f2a30;--paper:#fbfaf6;--sand:#f4f1ea;--rule:#c9c2b4;--accent:#0f5e63;
@@ -324,21 +324,5 @@ def write_report(report: Report, out_dir: str | Path = "reports") -> Path:
     """Write the data files, then the page, each atomically; returns the page's path."""
     d = Path(out_dir)
     for fname, text in report.files.items():
-        _readable(write_atomic(d / fname, text))
-    return _readable(write_atomic(d / f"{report.name}.html", report.html))
-
-
-def write_file(path: str | Path, text: str) -> Path:
-    """Write ``text`` atomically with the usual permissions; returns the path."""
-    return _readable(write_atomic(path, text))
-
-
-def _readable(path: Path) -> Path:
-    """Give a written file the usual permissions (``write_atomic``'s temporary file is
-    created owner-only, and the rename keeps that)."""
-    import os
-
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(path, 0o666 & ~umask)
-    return path
+        write_atomic(d / fname, text)
+    return write_atomic(d / f"{report.name}.html", report.html)
