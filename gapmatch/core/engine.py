@@ -363,7 +363,7 @@ def solve_stacks_nonideal(
 def _per_junction_array(value, shape, pad=0.0):
     """Broadcast a scalar, ``(N,)``, ``(N-1,)`` (padded) or ``(M, N)`` value to ``shape``."""
     a = np.asarray(value, dtype=float)
-    if a.ndim == 1 and a.size == shape[1] - 1:
+    if a.ndim == 1 and a.size == shape[-1] - 1:
         a = np.concatenate([a, [pad]])
     return np.broadcast_to(a, shape)
 
@@ -423,6 +423,7 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
     r = np.asarray(device.series_r, dtype=float)
     jeff_act = jph
     r_junction = np.zeros(shape)
+    r_stack = np.zeros(m)
     if connection == "series":
         r_stack = np.broadcast_to(r if r.ndim == 0 else r.reshape(-1)[0], (m,))
         dd = diodes
@@ -482,7 +483,7 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
             optics=optics, ere=ere, collection=eta, front_factor=ff, n2r=n2r,
             coupling_fraction=c, ref_j=rj, ref_v=rv, ref_jeff=rjeff, ref_voc=rvoc,
             ref_voc_rad=rvoc_rad, act_j=op.j_junction, act_v=op.v_junction,
-            junction_r=r_junction, p_out=op.p_mpp,
+            junction_r=r_junction, p_out=op.p_mpp, stack_r=r_stack, stack_j=op.j_mpp,
             sun_K=getattr(spectrum, "sun_temperature_K", None) if bb else None,
             sun_dilution=getattr(spectrum, "dilution", None) if bb else None,
         )

@@ -169,6 +169,8 @@ def compute_losses(
     p_out,
     sun_K=None,  # noqa: N803
     sun_dilution=None,
+    stack_r=0.0,
+    stack_j=0.0,
 ) -> LossBreakdown:
     """Assemble the loss breakdown from the optics and two operating points.
 
@@ -196,6 +198,9 @@ def compute_losses(
         Per-junction series resistance [ohm m^2] (independent connection), ``(M, N)``.
     p_out : numpy.ndarray
         Delivered power density [W m^-2], ``(M,)``.
+    stack_r, stack_j : numpy.ndarray
+        Series stack only: the stack's series resistance [ohm m^2] and current [A m^-2]
+        (the stack-level resistive loss is ``r J^2``).
     sun_K : float, optional
         Sun temperature [K] for a blackbody sun (enables Carnot and Boltzmann terms).
     sun_dilution : float, optional
@@ -244,7 +249,8 @@ def compute_losses(
     st = {
         "below_gap": np.asarray(optics.trans_below, float),
         "incomplete_absorption": np.asarray(optics.trans_above, float),
-        "series_resistance": jt["output"].sum(axis=1) - np.asarray(p_out, float),
+        "series_resistance": np.broadcast_to(np.asarray(stack_r, float)
+                                             * np.asarray(stack_j, float) ** 2, g.shape[:1]),
     }
     j_out = jt.pop("output")
     return LossBreakdown(jt, st, float(incident_W_m2), np.asarray(p_out, float), blackbody,
