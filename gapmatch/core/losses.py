@@ -249,8 +249,8 @@ def compute_losses(
     st = {
         "below_gap": np.asarray(optics.trans_below, float),
         "incomplete_absorption": np.asarray(optics.trans_above, float),
-        "series_resistance": np.broadcast_to(np.asarray(stack_r, float)
-                                             * np.asarray(stack_j, float) ** 2, g.shape[:1]),
+        "series_resistance": np.broadcast_to(np.asarray(stack_r, float) * np.nan_to_num(
+            np.asarray(stack_j, float)) ** 2, g.shape[:1]).copy(),
     }
     j_out = jt.pop("output")
     return LossBreakdown(jt, st, float(incident_W_m2), np.asarray(p_out, float), blackbody,
