@@ -276,3 +276,26 @@ def test_loss_frames_and_json():
 def test_validation(kwargs, match):
     with pytest.raises(InputError, match=match):
         gm.evaluate([1.72, 1.12], **kwargs)
+
+
+def test_loss_figures():
+    # The report figures are plotly objects built from the same numbers.
+    from gapmatch.report_figures_losses import (
+        junction_loss_figure,
+        loss_breakdown_figure,
+        thickness_figure,
+    )
+
+    res = gm.evaluate([[1.72, 1.12], [1.55, 1.12]], losses=True)
+    fig = loss_breakdown_figure(res)
+    out = next(t for t in fig.data if t.name == "delivered power")
+    np.testing.assert_allclose(out.y, 100 * res.efficiency, rtol=1e-12)
+    # bars of each stack add up to 100 % of the incident power (closure, 1e-9)
+    np.testing.assert_allclose(np.sum([t.y for t in fig.data], axis=0), 100.0, rtol=1e-9)
+    assert len(junction_loss_figure(res, 1).data) == len(res.losses.terms)
+    th = np.array([100.0, 300.0, 1000.0])
+    f3 = thickness_figure([1.55, 1.12], th)
+    np.testing.assert_allclose(
+        f3.data[0].y, 100 * gm.api.evaluate_thickness([1.55, 1.12], th).efficiency)
+    with pytest.raises(ValueError, match="losses=True"):
+        loss_breakdown_figure(gm.evaluate([1.72, 1.12]))
