@@ -63,6 +63,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..units import EV, K_B, C, H, Q
+from .diodes import ln_j0_radiative
 from .planck import PLANCK_PREFACTOR
 from .spectra import Spectrum, TabulatedSpectrum
 
@@ -116,16 +117,20 @@ class DirectGapAbsorption:
         """Absorption coefficient [m^-1] at photon energy ``energy_J`` for gap ``gap_J``."""
         e = np.asarray(energy_J, dtype=float)
         de = e - np.asarray(gap_J, dtype=float)
-        edge = self.alpha0_per_m * np.power(np.maximum(de, 0.0) / EV, self._power)
+        x = np.maximum(de, 0.0) * (1.0 / EV)
+        edge = self.alpha0_per_m * (np.sqrt(x) if self._power == 0.5 else x * x)
         eu = self.urbach_J
         if eu <= 0:
             return edge
         j = self._join()
         a_join = self.alpha0_per_m * (j / EV) ** self._power
-        with np.errstate(over="ignore"):
-            tail = a_join * np.exp(np.minimum(de - j, 0.0) / eu)
-        tail = np.where(de - j < -TAIL_DEPTH * eu, 0.0, tail)
-        return np.where(de >= j, edge, tail)
+        below = de < j
+        if not below.any():
+            return edge
+        # tail only where needed (bins below the join), zero beyond TAIL_DEPTH
+        u = np.clip((de - j) / eu, -TAIL_DEPTH, 0.0)
+        tail = np.where(u > -TAIL_DEPTH, a_join * np.exp(u), 0.0)
+        return np.where(below, tail, edge)
 
     def floor_J(self, gap_J):  # noqa: N803
         """Lowest photon energy [J] with non-zero absorption."""
@@ -377,31 +382,36 @@ def stack_optics(
     phi_abs = np.empty((m, n))
     p_abs = np.empty((m, n))
     j0 = np.empty((m, n))
+    cache: tuple | None = None
     for i in range(n):
         gi = g[:, i:i + 1]
-        # exact Boltzmann emission of each bin: q g (kT)^3 [e^-x (x^2 + 2x + 2)] differences
         kti = kt[:, i:i + 1]
-        x = edges / kti
-        ex = np.exp(-x)
-        t2 = ex * (x * x + 2.0 * x + 2.0)
-        t3 = ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
-        dg = np.concatenate([t2[:, :-1] - t2[:, 1:], t2[:, -1:]], axis=1)
-        dg3 = np.concatenate([t3[:, :-1] - t3[:, 1:], t3[:, -1:]], axis=1)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            e_em = np.where(dg > 0, kti * dg3 / dg, mids)
-        e_em = np.clip(e_em, lo_c, hi_c)
         if absorbers[i] is None:
             a = (mids > gi).astype(float)
-            a_em = a
+            # step absorber: the closed-form radiative saturation current (ideal engine)
+            j0[:, i] = np.exp(ln_j0_radiative(g[:, i], t[:, i], 1.0))
         else:
+            if cache is None or not np.array_equal(cache[0], kti):
+                # exact Boltzmann emission of each bin: q g (kT)^3 [e^-x (x^2 + 2x + 2)]
+                # differences, and the bin's emission centroid from the next moment
+                x = edges / kti
+                ex = np.exp(-x)
+                t2 = ex * (x * x + 2.0 * x + 2.0)
+                t3 = ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
+                dg = np.concatenate([t2[:, :-1] - t2[:, 1:], t2[:, -1:]], axis=1)
+                dg3 = np.concatenate([t3[:, :-1] - t3[:, 1:], t3[:, -1:]], axis=1)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    e_em = np.where(dg > 0, kti * dg3 / dg, mids)
+                cache = (kti, dg, np.clip(e_em, lo_c, hi_c))
+            _, dg, e_em = cache
             di = d[:, i:i + 1]
             a = absorptance(absorbers[i].alpha(e_sun, gi) * di, trapping[i], nidx[i])
             a_em = absorptance(absorbers[i].alpha(e_em, gi) * di, trapping[i], nidx[i])
+            j0[:, i] = Q * PLANCK_PREFACTOR * kti[:, 0] ** 3 * np.einsum("ij,ij->i", a_em, dg)
         absorbed = a * trans
         phi_abs[:, i] = np.einsum("ij,ij->i", absorbed, dphi)
         p_abs[:, i] = np.einsum("ij,ij->i", absorbed, dpow)
         trans = trans - absorbed
-        j0[:, i] = Q * PLANCK_PREFACTOR * kti[:, 0] ** 3 * np.einsum("ij,ij->i", a_em, dg)
     e_min = g.min(axis=1, keepdims=True)
     below = mids < e_min
     trans_p = trans * dpow

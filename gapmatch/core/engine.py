@@ -289,6 +289,7 @@ def solve_stacks_nonideal(
     vm_max_cells: int = 6,
     losses: bool = False,
     chunk: int | None = None,
+    threads: int | None = None,
 ) -> StackSolution:
     """Evaluate stacks with finite absorbers, coupling, temperature and practical losses.
 
@@ -313,7 +314,9 @@ def solve_stacks_nonideal(
     losses : bool
         Also compute the loss breakdown (``StackSolution.losses``).
     chunk : int, optional
-        Stacks per work unit (default: 512 with finite absorbers, all at once otherwise).
+        Stacks per work unit (default: 256 with finite absorbers, all at once otherwise).
+    threads : int, optional
+        Worker threads over work units (default: the number of CPUs).
 
     Returns
     -------
@@ -336,14 +339,21 @@ def solve_stacks_nonideal(
         "thickness": np.broadcast_to(np.asarray(device.thickness_m, float), (m, n)),
     }
     if chunk is None:
-        chunk = m if device.all_step() else 512
-    parts = []
-    for s0 in range(0, m, chunk):
+        chunk = m if device.all_step() else 256
+    def part(s0):
         sl = slice(s0, min(m, s0 + chunk))
-        parts.append(_solve_nonideal(g[sl], spectrum, connection, device,
-                                     {k: v[sl] for k, v in full.items()}, dark_model,
-                                     vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1
-                                     else np.asarray(vm_ratio)[sl], vm_max_cells, losses))
+        return _solve_nonideal(g[sl], spectrum, connection, device,
+                               {k: v[sl] for k, v in full.items()}, dark_model,
+                               vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1
+                               else np.asarray(vm_ratio)[sl], vm_max_cells, losses)
+
+    starts = list(range(0, m, chunk))
+    threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
+    if len(starts) == 1 or threads == 1:
+        parts = [part(s0) for s0 in starts]
+    else:  # numpy releases the GIL in its loops; results do not depend on threads
+        with ThreadPoolExecutor(max_workers=threads) as pool:
+            parts = list(pool.map(part, starts))
     if len(parts) == 1:
         return parts[0]
     sol = _concat(parts)
