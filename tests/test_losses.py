@@ -154,7 +154,9 @@ def _cases(draw):
         if n > 1 and draw(st.booleans()):
             kw["coupling_fraction"] = draw(st.floats(0.0, 1.0))
             kw["refractive_index"] = draw(st.floats(1.5, 4.0))
-    if draw(st.booleans()):
+    if "coupling_fraction" not in kw and draw(st.integers(0, 4)) == 0:
+        kw["dark_current"] = "bose-einstein"
+    elif draw(st.booleans()):
         kw["absorber"] = ["direct"] + ["step"] * (n - 1)
         kw["thickness_nm"] = [draw(st.floats(20.0, 5000.0))] + [0.0] * (n - 1)
         kw["urbach_energy_meV"] = draw(st.sampled_from([0.0, 8.0, 15.0]))
@@ -299,3 +301,37 @@ def test_loss_figures():
         f3.data[0].y, 100 * gm.api.evaluate_thickness([1.55, 1.12], th).efficiency)
     with pytest.raises(ValueError, match="losses=True"):
         loss_breakdown_figure(gm.evaluate([1.72, 1.12]))
+
+
+def test_cli_table_and_json_carry_the_breakdown(capsys):
+    from gapmatch.cli import main
+
+    assert main(["evaluate", "--gaps", "1.72", "1.12", "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    lw = d["losses_W_m2"]
+    assert lw["output"] == pytest.approx(d["pmpp_W_m2"], rel=1e-9)
+    assert lw["closure_rel"] < 1e-6
+    # the efficiency is the ideal engine's, unchanged by the breakdown
+    assert d["efficiency"] == gm.evaluate([1.72, 1.12]).efficiency[0]
+    assert main(["evaluate", "--gaps", "1.72", "1.12", "--absorber", "direct", "step",
+                 "--thickness", "400", "0", "--coupling-fraction", "1", "--varshni",
+                 "4.73e-4", "636", "--temperature", "330", "--series-resistance", "0.5",
+                 "--emission-half-angle", "60"]) == 0
+    out = capsys.readouterr().out
+    assert "where the incident power goes" in out and "luminescent transfer" in out
+    assert "not a rating" in out
+    res = gm.evaluate([1.72, 1.12], absorber=["direct", "step"], thickness_nm=[400, 0],
+                      coupling_fraction=1.0, varshni=(4.73e-4, 636.0), temperature_K=330.0,
+                      series_resistance_ohm_cm2=0.5, emission_half_angle_deg=60.0)
+    assert f"{100 * res.efficiency[0]:16.3f}" in out
+
+
+def test_cli_errors_are_one_line(capsys):
+    from gapmatch.cli import main
+
+    assert main(["evaluate", "--gaps", "1.72", "1.12", "--absorber", "direct"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "thickness_nm" in err
+    assert main(["evaluate", "--gaps", "1.72", "1.12", "--absorber", "table", "step",
+                 "--thickness", "300", "0", "--alpha-file", "a.csv", "b.csv"]) == 2
+    assert "--alpha-file" in capsys.readouterr().err
