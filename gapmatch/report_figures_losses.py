@@ -22,8 +22,13 @@ from plotly.subplots import make_subplots
 from .api import evaluate_thickness
 from .results import BatchResult
 
-__all__ = ["LOSS_COLOURS", "LOSS_LABELS", "loss_breakdown_figure", "junction_loss_figure",
-           "thickness_figure"]
+__all__ = [
+    "LOSS_COLOURS",
+    "LOSS_LABELS",
+    "loss_breakdown_figure",
+    "junction_loss_figure",
+    "thickness_figure",
+]
 
 #: display labels of the loss terms (units in the axis titles)
 LOSS_LABELS = {
@@ -69,8 +74,13 @@ def _stack_label(gaps: np.ndarray) -> str:
     return " / ".join(f"{g:.2f}" for g in gaps) + " eV"
 
 
-def loss_breakdown_figure(result: BatchResult, stacks: Sequence[int] | None = None, *,
-                          percent: bool = True, title: str | None = None) -> go.Figure:
+def loss_breakdown_figure(
+    result: BatchResult,
+    stacks: Sequence[int] | None = None,
+    *,
+    percent: bool = True,
+    title: str | None = None,
+) -> go.Figure:
     """Stacked bars of the loss breakdown, one bar per stack.
 
     Parameters
@@ -110,12 +120,19 @@ def loss_breakdown_figure(result: BatchResult, stacks: Sequence[int] | None = No
             continue  # zero per stack
         vals = np.asarray(tot[key])[idx]
         y = 100.0 * vals / inc if percent else vals
-        fig.add_trace(go.Bar(
-            name=LOSS_LABELS.get(key, key), x=labels, y=y,
-            marker_color=LOSS_COLOURS.get(key),
-            hovertemplate="%{x}<br>" + LOSS_LABELS.get(key, key) + ": %{y:.2f} " + unit
-            + "<extra></extra>",
-        ))
+        fig.add_trace(
+            go.Bar(
+                name=LOSS_LABELS.get(key, key),
+                x=labels,
+                y=y,
+                marker_color=LOSS_COLOURS.get(key),
+                hovertemplate="%{x}<br>"
+                + LOSS_LABELS.get(key, key)
+                + ": %{y:.2f} "
+                + unit
+                + "<extra></extra>",
+            )
+        )
     fig.update_layout(
         barmode="relative",
         title=title or "Where the incident power goes (theoretical model, not a rating)",
@@ -126,8 +143,7 @@ def loss_breakdown_figure(result: BatchResult, stacks: Sequence[int] | None = No
     return fig
 
 
-def junction_loss_figure(result: BatchResult, i: int = 0, *, percent: bool = True
-                         ) -> go.Figure:
+def junction_loss_figure(result: BatchResult, i: int = 0, *, percent: bool = True) -> go.Figure:
     """Stacked bars of the per-junction loss terms of stack ``i`` (top junction first).
 
     Stack-level terms (below-gap transmission, incomplete absorption, the stack's own
@@ -165,8 +181,9 @@ def junction_loss_figure(result: BatchResult, i: int = 0, *, percent: bool = Tru
             y[n] = float(b.stack[key][i] * scale)
         if key == "output":
             y[n] = np.nan
-        fig.add_trace(go.Bar(name=LOSS_LABELS.get(key, key), x=x, y=y,
-                             marker_color=LOSS_COLOURS.get(key)))
+        fig.add_trace(
+            go.Bar(name=LOSS_LABELS.get(key, key), x=x, y=y, marker_color=LOSS_COLOURS.get(key))
+        )
     fig.update_layout(
         barmode="relative",
         title=f"Loss breakdown by junction, stack {_stack_label(result.gaps_eV[i])} "
@@ -177,8 +194,9 @@ def junction_loss_figure(result: BatchResult, i: int = 0, *, percent: bool = Tru
     return fig
 
 
-def thickness_figure(gaps_eV, thickness_nm, connection: str = "series", *,
-                     junction: int = 0, **kwargs) -> go.Figure:
+def thickness_figure(
+    gaps_eV, thickness_nm, connection: str = "series", *, junction: int = 0, **kwargs
+) -> go.Figure:
     """Efficiency versus the thickness of one junction (default the top cell).
 
     Parameters
@@ -206,21 +224,45 @@ def thickness_figure(gaps_eV, thickness_nm, connection: str = "series", *,
     res = evaluate_thickness(gaps_eV, th, connection, junction=junction, **kwargs)
     eff = 100.0 * res.efficiency
     fig = make_subplots(specs=[[{"secondary_y": True}]])
-    fig.add_trace(go.Scatter(x=th, y=eff, mode="lines+markers", name="efficiency [%]",
-                             line={"color": "#238b45", "width": 3}), secondary_y=False)
+    fig.add_trace(
+        go.Scatter(
+            x=th,
+            y=eff,
+            mode="lines+markers",
+            name="efficiency [%]",
+            line={"color": "#238b45", "width": 3},
+        ),
+        secondary_y=False,
+    )
     for k in range(res.n_junctions):
-        fig.add_trace(go.Scatter(x=th, y=0.1 * res.solution.jph[:, k], mode="lines",
-                                 name=f"J_ph junction {k + 1} [mA cm^-2]",
-                                 line={"dash": "dot"}), secondary_y=True)
+        fig.add_trace(
+            go.Scatter(
+                x=th,
+                y=0.1 * res.solution.jph[:, k],
+                mode="lines",
+                name=f"J_ph junction {k + 1} [mA cm^-2]",
+                line={"dash": "dot"},
+            ),
+            secondary_y=True,
+        )
     best = int(np.argmax(eff))
-    fig.add_trace(go.Scatter(x=[th[best]], y=[eff[best]], mode="markers+text",
-                             text=[f"{eff[best]:.2f} % at {th[best]:.3g} nm"],
-                             textposition="top center", marker={"size": 12, "symbol": "star",
-                                                                "color": "#08519c"},
-                             name="most efficient"), secondary_y=False)
+    fig.add_trace(
+        go.Scatter(
+            x=[th[best]],
+            y=[eff[best]],
+            mode="markers+text",
+            text=[f"{eff[best]:.2f} % at {th[best]:.3g} nm"],
+            textposition="top center",
+            marker={"size": 12, "symbol": "star", "color": "#08519c"},
+            name="most efficient",
+        ),
+        secondary_y=False,
+    )
     fig.update_xaxes(type="log", title_text=f"thickness of junction {junction + 1} [nm]")
     fig.update_yaxes(title_text="efficiency [%]", secondary_y=False)
     fig.update_yaxes(title_text="photocurrent [mA cm^-2]", secondary_y=True)
-    fig.update_layout(title=f"Efficiency versus thickness, stack {_stack_label(res.gaps_eV[0])}"
-                      f", {connection} (theoretical model, not a rating)")
+    fig.update_layout(
+        title=f"Efficiency versus thickness, stack {_stack_label(res.gaps_eV[0])}"
+        f", {connection} (theoretical model, not a rating)"
+    )
     return fig

@@ -32,11 +32,16 @@ def test_very_thick_absorber_recovers_step(connection, model, trapping):
     rtol = 1e-9 if model == "direct" else 5e-4
     gaps = [[1.72, 1.12], [1.9, 1.3], [1.55, 0.95]]
     ideal = gm.evaluate(gaps, connection)
-    thick = gm.evaluate(gaps, connection, absorber=[model, model], thickness_nm=1e8,
-                        light_trapping=trapping, alpha0_per_cm=1e7)
+    thick = gm.evaluate(
+        gaps,
+        connection,
+        absorber=[model, model],
+        thickness_nm=1e8,
+        light_trapping=trapping,
+        alpha0_per_cm=1e7,
+    )
     np.testing.assert_allclose(thick.solution.jph, ideal.solution.jph, rtol=rtol)
-    np.testing.assert_allclose(thick.solution.voc_junction, ideal.solution.voc_junction,
-                               rtol=rtol)
+    np.testing.assert_allclose(thick.solution.voc_junction, ideal.solution.voc_junction, rtol=rtol)
     np.testing.assert_allclose(thick.efficiency, ideal.efficiency, rtol=rtol)
 
 
@@ -71,19 +76,30 @@ def test_absorbed_flux_and_dark_current_against_quadrature():
     # kT/15, graded in sqrt(E - E_g) near the edge); the error is O(h^2 a''/a), largest at
     # the square-root edge (measured 1.4e-4 for the dark current; 3e-4 of J0 is 8 uV of V_oc).
     gap, d, a0 = 1.7 * EV, 500e-9, 5e6
-    res = gm.evaluate([1.7], "independent", spectrum="blackbody", absorber="direct",
-                      thickness_nm=500.0)
+    res = gm.evaluate(
+        [1.7], "independent", spectrum="blackbody", absorber="direct", thickness_nm=500.0
+    )
     spec = gm.BlackbodySun(6000.0)
 
     def a(e):
         return -math.expm1(-_direct_alpha(e, gap, a0) * d)
 
-    flux, _ = integrate.quad(lambda e: a(e) * float(spec.spectral_photon_flux(e)), gap,
-                             40 * sc.k * 6000, limit=400, points=[gap * 1.001, gap * 1.05])
+    flux, _ = integrate.quad(
+        lambda e: a(e) * float(spec.spectral_photon_flux(e)),
+        gap,
+        40 * sc.k * 6000,
+        limit=400,
+        points=[gap * 1.001, gap * 1.05],
+    )
     np.testing.assert_allclose(res.solution.jph[0, 0], sc.e * flux, rtol=3e-4)
     g = 2 * math.pi / (sc.h**3 * sc.c**2)
-    j0_quad, _ = integrate.quad(lambda e: a(e) * e * e * math.exp(-(e - gap) / KT300), gap,
-                                gap + 60 * KT300, limit=400, points=[gap + KT300])
+    j0_quad, _ = integrate.quad(
+        lambda e: a(e) * e * e * math.exp(-(e - gap) / KT300),
+        gap,
+        gap + 60 * KT300,
+        limit=400,
+        points=[gap + KT300],
+    )
     j0_quad *= sc.e * g * math.exp(-gap / KT300)
     vt = KT300 / sc.e
     jph = res.solution.jph[0, 0]
@@ -109,9 +125,16 @@ def test_lambertian_limits_and_ordering():
 def test_light_trapping_raises_thin_cell_current():
     # A thin top cell with Lambertian trapping absorbs more than single pass (the 4 n^2
     # path enhancement, Yablonovitch 1982), and its V_oc is also changed by reciprocity.
-    res = {t: gm.evaluate([1.72, 1.12], "independent", absorber=["direct", "step"],
-                          thickness_nm=[100, 0], light_trapping=[t, "single"])
-           for t in ("single", "double", "lambertian")}
+    res = {
+        t: gm.evaluate(
+            [1.72, 1.12],
+            "independent",
+            absorber=["direct", "step"],
+            thickness_nm=[100, 0],
+            light_trapping=[t, "single"],
+        )
+        for t in ("single", "double", "lambertian")
+    }
     j = [res[t].solution.jph[0, 0] for t in ("single", "double", "lambertian")]
     assert j[0] < j[1] < j[2]
 
@@ -120,8 +143,9 @@ def test_urbach_tail_absorbs_below_gap():
     # Urbach (1953) tail: with E_U > 0 a thick direct absorber takes photons below its
     # nominal gap, so its photocurrent exceeds the step value and its V_oc is lower.
     step = gm.evaluate([1.5], "independent")
-    tail = gm.evaluate([1.5], "independent", absorber="direct", thickness_nm=1e6,
-                       urbach_energy_meV=15.0)
+    tail = gm.evaluate(
+        [1.5], "independent", absorber="direct", thickness_nm=1e6, urbach_energy_meV=15.0
+    )
     assert tail.solution.jph[0, 0] > step.solution.jph[0, 0]
     assert tail.solution.voc_junction[0, 0] < step.solution.voc_junction[0, 0]
 
@@ -145,23 +169,38 @@ def test_tabulated_alpha_matches_model(tmp_path):
     e = sc.h * sc.c / (wl * 1e-9)
     alpha_cm = _direct_alpha(e, gap, a0) / 100.0
     p = tmp_path / "alpha.csv"
-    p.write_text("wavelength_nm,alpha_per_cm\n" + "\n".join(f"{a},{b}" for a, b in
-                                                             zip(wl, alpha_cm, strict=True)))
-    tab = gm.evaluate([1.72, 1.12], "series", absorber=["table", "step"], alpha_file=[p, None],
-                      thickness_nm=[400, 0])
-    mod = gm.evaluate([1.72, 1.12], "series", absorber=["direct", "step"],
-                      thickness_nm=[400, 0], alpha0_per_cm=5e4)
+    p.write_text(
+        "wavelength_nm,alpha_per_cm\n"
+        + "\n".join(f"{a},{b}" for a, b in zip(wl, alpha_cm, strict=True))
+    )
+    tab = gm.evaluate(
+        [1.72, 1.12],
+        "series",
+        absorber=["table", "step"],
+        alpha_file=[p, None],
+        thickness_nm=[400, 0],
+    )
+    mod = gm.evaluate(
+        [1.72, 1.12],
+        "series",
+        absorber=["direct", "step"],
+        thickness_nm=[400, 0],
+        alpha0_per_cm=5e4,
+    )
     np.testing.assert_allclose(tab.solution.jph, mod.solution.jph, rtol=2e-3)
 
 
-@pytest.mark.parametrize("content, match", [
-    ("wavelength,alpha\n300,1e5\n300,2e5\n", "row 3: wavelengths must be strictly"),
-    ("300,1e5\n400,-1\n", "row 2: absorption coefficient must be >= 0"),
-    ("300,1e5\n400,abc\n", "row 2: not a number"),
-    ("300,1e5\n", "at least two data rows"),
-    ("300,0\n400,0\n", "zero everywhere"),
-    ("300,nan\n400,1\n", "row 1: values must be finite"),
-])
+@pytest.mark.parametrize(
+    "content, match",
+    [
+        ("wavelength,alpha\n300,1e5\n300,2e5\n", "row 3: wavelengths must be strictly"),
+        ("300,1e5\n400,-1\n", "row 2: absorption coefficient must be >= 0"),
+        ("300,1e5\n400,abc\n", "row 2: not a number"),
+        ("300,1e5\n", "at least two data rows"),
+        ("300,0\n400,0\n", "zero everywhere"),
+        ("300,nan\n400,1\n", "row 1: values must be finite"),
+    ],
+)
 def test_alpha_csv_validation(tmp_path, content, match):
     # File, row and problem are named (validated like spectra).
     p = tmp_path / "bad.csv"
@@ -172,21 +211,28 @@ def test_alpha_csv_validation(tmp_path, content, match):
         read_alpha_csv(tmp_path / "missing.csv")
 
 
-@pytest.mark.parametrize("kwargs, match", [
-    ({"absorber": "direct"}, "thickness_nm: is needed"),
-    ({"absorber": "direct", "thickness_nm": 0.1}, r"thickness_nm: .*\[1, 1e8\] nm"),
-    ({"absorber": "glass"}, "absorber: every value must be one of"),
-    ({"absorber": ["direct"] * 3, "thickness_nm": 100}, "absorber: needs one value"),
-    ({"light_trapping": "mirror"}, "light_trapping: every value must be one of"),
-    ({"absorber": "direct", "thickness_nm": 100, "urbach_energy_meV": 200},
-     r"urbach_energy_meV: .*\[0, 100\] meV"),
-    ({"absorber": "direct", "thickness_nm": 100, "dark_current": "bose-einstein"},
-     "dark_current: finite absorbers need"),
-    ({"absorber": "table", "thickness_nm": 100}, "alpha_file: junction 1"),
-    ({"alpha_file": "x.csv"}, "alpha_file: applies only"),
-    ({"refractive_index": 0.5}, r"refractive_index: .*\[1, 6\]"),
-    ({"absorber": "direct", "thickness_nm": [[1, 2, 3]]}, "thickness_nm: needs one value"),
-])
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"absorber": "direct"}, "thickness_nm: is needed"),
+        ({"absorber": "direct", "thickness_nm": 0.1}, r"thickness_nm: .*\[1, 1e8\] nm"),
+        ({"absorber": "glass"}, "absorber: every value must be one of"),
+        ({"absorber": ["direct"] * 3, "thickness_nm": 100}, "absorber: needs one value"),
+        ({"light_trapping": "mirror"}, "light_trapping: every value must be one of"),
+        (
+            {"absorber": "direct", "thickness_nm": 100, "urbach_energy_meV": 200},
+            r"urbach_energy_meV: .*\[0, 100\] meV",
+        ),
+        (
+            {"absorber": "direct", "thickness_nm": 100, "dark_current": "bose-einstein"},
+            "dark_current: finite absorbers need",
+        ),
+        ({"absorber": "table", "thickness_nm": 100}, "alpha_file: junction 1"),
+        ({"alpha_file": "x.csv"}, "alpha_file: applies only"),
+        ({"refractive_index": 0.5}, r"refractive_index: .*\[1, 6\]"),
+        ({"absorber": "direct", "thickness_nm": [[1, 2, 3]]}, "thickness_nm: needs one value"),
+    ],
+)
 def test_evaluate_validation(kwargs, match):
     with pytest.raises(InputError, match=match):
         gm.evaluate([1.72, 1.12], **kwargs)

@@ -84,8 +84,12 @@ def test_series_coupled_point_is_self_consistent_and_optimal():
         return optimize.brentq(f, -5.0, 1.2, xtol=1e-15)
 
     lim = min(jph[0], (jph[1] + c * beta * jph[0]) / (1 + c * beta)) * (1 - 1e-12)
-    best = optimize.minimize_scalar(lambda j: -j * (v1(j) + v2(j)), bounds=(0.5 * lim, lim),
-                                    method="bounded", options={"xatol": 1e-10})
+    best = optimize.minimize_scalar(
+        lambda j: -j * (v1(j) + v2(j)),
+        bounds=(0.5 * lim, lim),
+        method="bounded",
+        options={"xatol": 1e-10},
+    )
     assert res.solution.op.p_mpp[0] == pytest.approx(-best.fun, rel=1e-9)
     j = res.solution.op.j_mpp[0]
     # self-consistency at the engine's point: bottom dark current = J_ph2 + k D_1 - J
@@ -114,8 +118,12 @@ def test_independent_coupled_optimum_against_scipy():
         return p1 + p2
 
     x0 = res.solution.op.v_junction[0] * np.array([0.99, 1.01])
-    opt = optimize.minimize(lambda v: -power(v), x0, method="Nelder-Mead",
-                            options={"xatol": 1e-12, "fatol": 1e-12, "maxiter": 20000})
+    opt = optimize.minimize(
+        lambda v: -power(v),
+        x0,
+        method="Nelder-Mead",
+        options={"xatol": 1e-12, "fatol": 1e-12, "maxiter": 20000},
+    )
     p_engine = res.solution.op.p_mpp[0]
     assert p_engine >= -opt.fun * (1 - 1e-9)
     assert p_engine == pytest.approx(power(res.solution.op.v_junction[0]), rel=1e-12)
@@ -146,15 +154,22 @@ def test_cone_at_the_sun_half_angle_under_full_concentration():
         gm.evaluate([1.4], emission_half_angle_deg=5.0, concentration=2000)
 
 
-@pytest.mark.parametrize("kwargs, match", [
-    ({"coupling_fraction": 1.5}, r"coupling_fraction: must be a number in \[0, 1\]"),
-    ({"coupling_fraction": [0.5, 0.5]}, "coupling_fraction: needs one value, or one per "
-                                        "interface"),
-    ({"coupling_fraction": 0.5, "connection": "voltage-matched"},
-     "coupling_fraction: luminescent coupling needs"),
-    ({"coupling_fraction": 0.5, "dark_current": "bose-einstein"}, "dark_current: luminescent"),
-    ({"emission_half_angle_deg": 95}, "emission_half_angle_deg: must be a number"),
-])
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"coupling_fraction": 1.5}, r"coupling_fraction: must be a number in \[0, 1\]"),
+        (
+            {"coupling_fraction": [0.5, 0.5]},
+            "coupling_fraction: needs one value, or one per interface",
+        ),
+        (
+            {"coupling_fraction": 0.5, "connection": "voltage-matched"},
+            "coupling_fraction: luminescent coupling needs",
+        ),
+        ({"coupling_fraction": 0.5, "dark_current": "bose-einstein"}, "dark_current: luminescent"),
+        ({"emission_half_angle_deg": 95}, "emission_half_angle_deg: must be a number"),
+    ],
+)
 def test_validation(kwargs, match):
     with pytest.raises(InputError, match=match):
         gm.evaluate([1.72, 1.12], **kwargs)

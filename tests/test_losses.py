@@ -25,18 +25,28 @@ SIN2_SUN = (6.957e8 / sc.au) ** 2
 
 # ---- the ideal path is unchanged --------------------------------------------------------
 @pytest.mark.parametrize("connection", ["series", "independent", "voltage-matched"])
-@pytest.mark.parametrize("kw", [{}, {"temperature_K": 320.0, "ere": 1e-3},
-                                {"dark_current": "bose-einstein", "concentration": 100.0},
-                                {"spectrum": "blackbody"}])
+@pytest.mark.parametrize(
+    "kw",
+    [
+        {},
+        {"temperature_K": 320.0, "ere": 1e-3},
+        {"dark_current": "bose-einstein", "concentration": 100.0},
+        {"spectrum": "blackbody"},
+    ],
+)
 def test_default_evaluate_bit_identical_to_hot_path(connection, kw):
     # evaluate() with no opt-in physics must return exactly (bit for bit) what the hot
     # path solve_stacks() gives; so must losses=True for everything but the breakdown.
     gaps = [[1.72, 1.12], [1.9, 1.3], [1.55, 0.95]]
-    spec = gm.get_spectrum(kw.get("spectrum", "AM1.5G"),
-                           concentration=kw.get("concentration", 1.0))
-    old = solve_stacks(np.asarray(gaps) * EV, spec, connection,
-                       temperature_K=kw.get("temperature_K", 300.0), ere=kw.get("ere", 1.0),
-                       dark_model=kw.get("dark_current", "boltzmann"))
+    spec = gm.get_spectrum(kw.get("spectrum", "AM1.5G"), concentration=kw.get("concentration", 1.0))
+    old = solve_stacks(
+        np.asarray(gaps) * EV,
+        spec,
+        connection,
+        temperature_K=kw.get("temperature_K", 300.0),
+        ere=kw.get("ere", 1.0),
+        dark_model=kw.get("dark_current", "boltzmann"),
+    )
     new = gm.evaluate(gaps, connection, **kw)
     new_l = gm.evaluate(gaps, connection, losses=True, **kw)
     for res in (new, new_l):
@@ -57,8 +67,14 @@ def test_carnot_and_boltzmann_per_carrier(gap, t_sun):
     # Omega_sun) with Omega_emit = pi (hemisphere) and Omega_sun = pi sin^2(theta_sun) C.
     # Tolerance 1e-9 relative (sin^2 from the same constants; rounding).
     for conc in (1.0, 1000.0):
-        res = gm.evaluate([gap], "independent", spectrum="blackbody", sun_temperature_K=t_sun,
-                          concentration=conc, losses=True)
+        res = gm.evaluate(
+            [gap],
+            "independent",
+            spectrum="blackbody",
+            sun_temperature_K=t_sun,
+            concentration=conc,
+            losses=True,
+        )
         lb = res.losses.breakdown
         carriers = res.solution.op.j_junction[0, 0] / sc.e
         carnot = lb.junction["carnot"][0, 0] / carriers
@@ -71,8 +87,7 @@ def test_boltzmann_term_vanishes_at_maximum_concentration():
     # Hirst & Ekins-Daukes 2011: at maximum concentration Omega_sun = Omega_emit and the
     # Boltzmann loss is zero (tolerance: 1e-9 of the Carnot term, rounding of 1/sin^2).
     cmax = gm.core.spectra.MAX_CONCENTRATION
-    res = gm.evaluate([1.1], "independent", spectrum="blackbody", concentration=cmax,
-                      losses=True)
+    res = gm.evaluate([1.1], "independent", spectrum="blackbody", concentration=cmax, losses=True)
     lb = res.losses.breakdown
     assert abs(lb.junction["boltzmann"][0, 0]) < 1e-9 * lb.junction["carnot"][0, 0]
 
@@ -82,8 +97,7 @@ def test_voc_rise_with_concentration_matches_boltzmann_term():
     # engine's V_oc by the same amount (ideal-diode V_oc = V_t ln(1 + J_ph/J0), standard;
     # tolerance 1e-9 V from the +1).
     a = gm.evaluate([1.34], "independent", spectrum="blackbody", losses=True)
-    b = gm.evaluate([1.34], "independent", spectrum="blackbody", concentration=500.0,
-                    losses=True)
+    b = gm.evaluate([1.34], "independent", spectrum="blackbody", concentration=500.0, losses=True)
     dv = b.solution.voc_junction[0, 0] - a.solution.voc_junction[0, 0]
     assert dv == pytest.approx(VT300 * math.log(500.0), abs=1e-9)
 
@@ -102,13 +116,15 @@ def test_measured_spectrum_voltage_decomposition():
     assert "carnot" not in lb.junction and "boltzmann" not in lb.junction
     j, v = res.solution.op.j_junction[0], res.solution.op.v_junction[0]
     total = (np.array([1.72, 1.12]) - v) * j
-    parts = sum(lb.junction[k][0] for k in ("voltage_radiative", "voltage_nonradiative",
-                                             "voltage_mpp"))
+    parts = sum(
+        lb.junction[k][0] for k in ("voltage_radiative", "voltage_nonradiative", "voltage_mpp")
+    )
     np.testing.assert_allclose(parts, total, rtol=1e-9)
     # the non-radiative voltage term is (kT/q) ln(1/ERE) per carrier (Rau 2007; the
     # J0/J_ph correction is far below the 1e-9 tolerance)
-    np.testing.assert_allclose(lb.junction["voltage_nonradiative"][0] / j,
-                               VT300 * math.log(100.0), rtol=1e-9)
+    np.testing.assert_allclose(
+        lb.junction["voltage_nonradiative"][0] / j, VT300 * math.log(100.0), rtol=1e-9
+    )
 
 
 def test_step_limit_terms_from_the_spectrum():
@@ -120,28 +136,31 @@ def test_step_limit_terms_from_the_spectrum():
     lb = res.losses.breakdown
     pa = spec.power_above(np.array([1.72, 1.12]) * EV)
     fa = spec.photon_flux_above(np.array([1.72, 1.12]) * EV)
-    assert lb.stack["below_gap"][0] == pytest.approx(spec.total_irradiance_W_m2 - pa[1],
-                                                     rel=1e-12)
+    assert lb.stack["below_gap"][0] == pytest.approx(spec.total_irradiance_W_m2 - pa[1], rel=1e-12)
     therm = [pa[0] - 1.72 * EV * fa[0], (pa[1] - pa[0]) - 1.12 * EV * (fa[1] - fa[0])]
     np.testing.assert_allclose(lb.junction["thermalisation"][0], therm, rtol=1e-12)
     # series mismatch = what the independent connection of the same junctions adds
     ind = gm.evaluate([1.72, 1.12], "independent")
     assert res.losses.totals()["mismatch"][0] == pytest.approx(
-        ind.pmpp_W_m2[0] - res.pmpp_W_m2[0], rel=1e-9)
+        ind.pmpp_W_m2[0] - res.pmpp_W_m2[0], rel=1e-9
+    )
 
 
 # ---- closure (hypothesis) -------------------------------------------------------------------
 @st.composite
 def _cases(draw):
     n = draw(st.integers(1, 3))
-    gaps = sorted(draw(st.lists(st.floats(0.6, 2.4), min_size=n, max_size=n,
-                                unique=True)), reverse=True)
+    gaps = sorted(
+        draw(st.lists(st.floats(0.6, 2.4), min_size=n, max_size=n, unique=True)), reverse=True
+    )
     if any(a - b < 0.02 for a, b in zip(gaps, gaps[1:], strict=False)):
         gaps = [2.4 - 0.5 * i for i in range(n)]
     conn = draw(st.sampled_from(["series", "independent", "voltage-matched"]))
-    kw = {"ere": draw(st.sampled_from([1.0, 0.1, 1e-4])),
-          "temperature_K": draw(st.floats(250.0, 400.0)),
-          "spectrum": draw(st.sampled_from(["AM1.5G", "blackbody", "AM0"]))}
+    kw = {
+        "ere": draw(st.sampled_from([1.0, 0.1, 1e-4])),
+        "temperature_K": draw(st.floats(250.0, 400.0)),
+        "spectrum": draw(st.sampled_from(["AM1.5G", "blackbody", "AM0"])),
+    }
     if draw(st.booleans()):
         kw["collection_efficiency"] = draw(st.floats(0.5, 1.0))
     if draw(st.booleans()):
@@ -175,8 +194,14 @@ def test_loss_shares_add_up_to_incident_power(case):
     tot = res.losses.totals()
     assert tot["output"][0] == pytest.approx(res.pmpp_W_m2[0], rel=1e-12)
     assert abs(tot["luminescent_transfer"][0]) < 1e-9 * res.solution.incident_W_m2
-    for k in ("below_gap", "emission", "nonradiative", "series_resistance",
-              "incomplete_collection", "incomplete_absorption"):
+    for k in (
+        "below_gap",
+        "emission",
+        "nonradiative",
+        "series_resistance",
+        "incomplete_collection",
+        "incomplete_absorption",
+    ):
         assert tot[k][0] >= -1e-9 * res.solution.incident_W_m2, k
 
 
@@ -201,12 +226,14 @@ def test_series_resistance_mpp_is_exact():
         def neg_p(j, r=r):
             return -j * (np.sum(VT300 * np.log1p((jph - j) / j0)) - r * j)
 
-        opt = optimize.minimize_scalar(neg_p, bounds=(0.0, jph.min()), method="bounded",
-                                       options={"xatol": 1e-9})
+        opt = optimize.minimize_scalar(
+            neg_p, bounds=(0.0, jph.min()), method="bounded", options={"xatol": 1e-9}
+        )
         assert res.pmpp_W_m2[0] == pytest.approx(-opt.fun, rel=1e-10)
         assert res.solution.op.j_mpp[0] == pytest.approx(opt.x, rel=1e-5)
         assert res.losses.stack(0)["series_resistance"] == pytest.approx(
-            r * res.solution.op.j_mpp[0] ** 2, rel=1e-12)
+            r * res.solution.op.j_mpp[0] ** 2, rel=1e-12
+        )
         effs.append(res.efficiency[0])
     assert np.all(np.diff(effs) < 0)
     assert effs[0] == pytest.approx(base.efficiency[0], rel=1e-12)
@@ -227,8 +254,9 @@ def test_independent_series_resistance_per_junction():
         def neg_p(j, k=k, r=r):
             return -j * (VT300 * np.log1p((jph[k] - j) / j0[k]) - r * j)
 
-        total -= optimize.minimize_scalar(neg_p, bounds=(0, jph[k]), method="bounded",
-                                          options={"xatol": 1e-9}).fun
+        total -= optimize.minimize_scalar(
+            neg_p, bounds=(0, jph[k]), method="bounded", options={"xatol": 1e-9}
+        ).fun
     assert res.pmpp_W_m2[0] == pytest.approx(total, rel=1e-10)
     assert res.efficiency[0] < base.efficiency[0]
 
@@ -238,19 +266,21 @@ def test_collection_efficiency_scales_current_not_voltage():
     # at fixed ERE a collection efficiency eta scales J_ph by eta and leaves V_oc unchanged
     # (to J0/J_ph). Tolerances 1e-12 / 1e-9 V.
     base = gm.evaluate([1.72, 1.12], "independent")
-    res = gm.evaluate([1.72, 1.12], "independent", collection_efficiency=[0.9, 0.8],
-                      losses=True)
-    np.testing.assert_allclose(res.solution.jph[0], base.solution.jph[0] * [0.9, 0.8],
-                               rtol=1e-12)
-    np.testing.assert_allclose(res.solution.voc_junction, base.solution.voc_junction,
-                               atol=1e-9)
+    res = gm.evaluate([1.72, 1.12], "independent", collection_efficiency=[0.9, 0.8], losses=True)
+    np.testing.assert_allclose(res.solution.jph[0], base.solution.jph[0] * [0.9, 0.8], rtol=1e-12)
+    np.testing.assert_allclose(res.solution.voc_junction, base.solution.voc_junction, atol=1e-9)
     assert res.losses.totals()["incomplete_collection"][0] > 0
 
 
 # ---- results objects -------------------------------------------------------------------------
 def test_loss_frames_and_json():
-    res = gm.evaluate([[1.72, 1.12], [1.9, 1.1]], "series", losses=True,
-                      absorber=["direct", "step"], thickness_nm=[300, 0])
+    res = gm.evaluate(
+        [[1.72, 1.12], [1.9, 1.1]],
+        "series",
+        losses=True,
+        absorber=["direct", "step"],
+        thickness_nm=[300, 0],
+    )
     f = res.losses.to_frame()
     assert len(f) == 2 and "thermalisation_W_m2" in f and "output_W_m2" in f
     terms = [c for c in f.columns if c.endswith("_W_m2") and c != "incident_W_m2"]
@@ -264,17 +294,27 @@ def test_loss_frames_and_json():
     assert d["conditions"]["physics"]["absorber"] == ["direct", "step"]
 
 
-@pytest.mark.parametrize("kwargs, match", [
-    ({"losses": "yes"}, "losses: must be True or False"),
-    ({"series_resistance_ohm_cm2": -1}, r"series_resistance_ohm_cm2: must be a number in "
-                                        r"\[0, 100\] ohm cm\^2"),
-    ({"series_resistance_ohm_cm2": [1, 2]}, "one value per junction applies to connection "
-                                            "'independent' only"),
-    ({"series_resistance_ohm_cm2": 1, "connection": "voltage-matched"},
-     "series resistance needs connection"),
-    ({"collection_efficiency": 0.0}, r"collection_efficiency: must be a number in \(0, 1\]"),
-    ({"collection_efficiency": [0.9, 1.2]}, "collection_efficiency: every value"),
-])
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"losses": "yes"}, "losses: must be True or False"),
+        (
+            {"series_resistance_ohm_cm2": -1},
+            r"series_resistance_ohm_cm2: must be a number in "
+            r"\[0, 100\] ohm cm\^2",
+        ),
+        (
+            {"series_resistance_ohm_cm2": [1, 2]},
+            "one value per junction applies to connection 'independent' only",
+        ),
+        (
+            {"series_resistance_ohm_cm2": 1, "connection": "voltage-matched"},
+            "series resistance needs connection",
+        ),
+        ({"collection_efficiency": 0.0}, r"collection_efficiency: must be a number in \(0, 1\]"),
+        ({"collection_efficiency": [0.9, 1.2]}, "collection_efficiency: every value"),
+    ],
+)
 def test_validation(kwargs, match):
     with pytest.raises(InputError, match=match):
         gm.evaluate([1.72, 1.12], **kwargs)
@@ -298,7 +338,8 @@ def test_loss_figures():
     th = np.array([100.0, 300.0, 1000.0])
     f3 = thickness_figure([1.55, 1.12], th)
     np.testing.assert_allclose(
-        f3.data[0].y, 100 * gm.api.evaluate_thickness([1.55, 1.12], th).efficiency)
+        f3.data[0].y, 100 * gm.api.evaluate_thickness([1.55, 1.12], th).efficiency
+    )
     with pytest.raises(ValueError, match="losses=True"):
         loss_breakdown_figure(gm.evaluate([1.72, 1.12]))
 
@@ -313,16 +354,47 @@ def test_cli_table_and_json_carry_the_breakdown(capsys):
     assert lw["closure_rel"] < 1e-6
     # the efficiency is the ideal engine's, unchanged by the breakdown
     assert d["efficiency"] == gm.evaluate([1.72, 1.12]).efficiency[0]
-    assert main(["evaluate", "--gaps", "1.72", "1.12", "--absorber", "direct", "step",
-                 "--thickness", "400", "0", "--coupling-fraction", "1", "--varshni",
-                 "4.73e-4", "636", "--temperature", "330", "--series-resistance", "0.5",
-                 "--emission-half-angle", "60"]) == 0
+    assert (
+        main(
+            [
+                "evaluate",
+                "--gaps",
+                "1.72",
+                "1.12",
+                "--absorber",
+                "direct",
+                "step",
+                "--thickness",
+                "400",
+                "0",
+                "--coupling-fraction",
+                "1",
+                "--varshni",
+                "4.73e-4",
+                "636",
+                "--temperature",
+                "330",
+                "--series-resistance",
+                "0.5",
+                "--emission-half-angle",
+                "60",
+            ]
+        )
+        == 0
+    )
     out = capsys.readouterr().out
     assert "where the incident power goes" in out and "luminescent transfer" in out
     assert "not a rating" in out
-    res = gm.evaluate([1.72, 1.12], absorber=["direct", "step"], thickness_nm=[400, 0],
-                      coupling_fraction=1.0, varshni=(4.73e-4, 636.0), temperature_K=330.0,
-                      series_resistance_ohm_cm2=0.5, emission_half_angle_deg=60.0)
+    res = gm.evaluate(
+        [1.72, 1.12],
+        absorber=["direct", "step"],
+        thickness_nm=[400, 0],
+        coupling_fraction=1.0,
+        varshni=(4.73e-4, 636.0),
+        temperature_K=330.0,
+        series_resistance_ohm_cm2=0.5,
+        emission_half_angle_deg=60.0,
+    )
     assert f"{100 * res.efficiency[0]:16.3f}" in out
 
 
@@ -332,6 +404,24 @@ def test_cli_errors_are_one_line(capsys):
     assert main(["evaluate", "--gaps", "1.72", "1.12", "--absorber", "direct"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "thickness_nm" in err
-    assert main(["evaluate", "--gaps", "1.72", "1.12", "--absorber", "table", "step",
-                 "--thickness", "300", "0", "--alpha-file", "a.csv", "b.csv"]) == 2
+    assert (
+        main(
+            [
+                "evaluate",
+                "--gaps",
+                "1.72",
+                "1.12",
+                "--absorber",
+                "table",
+                "step",
+                "--thickness",
+                "300",
+                "0",
+                "--alpha-file",
+                "a.csv",
+                "b.csv",
+            ]
+        )
+        == 2
+    )
     assert "--alpha-file" in capsys.readouterr().err

@@ -42,8 +42,13 @@ def test_gap_moves_with_cell_temperature():
 
 def test_linear_coefficient():
     # Linear model E_g(T) = E_g(T_ref) + dEg/dT (T - T_ref); tolerance 1e-12 eV.
-    res = gm.evaluate([1.72, 1.12], "series", temperature_K=[330.0, 340.0],
-                      dEg_dT_eV_K=[-3e-4, -2.5e-4], gap_reference_K=298.15)
+    res = gm.evaluate(
+        [1.72, 1.12],
+        "series",
+        temperature_K=[330.0, 340.0],
+        dEg_dT_eV_K=[-3e-4, -2.5e-4],
+        gap_reference_K=298.15,
+    )
     eg = res.solution.gaps_J[0] / gm.units.EV
     np.testing.assert_allclose(eg, [1.72 - 3e-4 * 31.85, 1.12 - 2.5e-4 * 41.85], atol=1e-12)
 
@@ -53,8 +58,9 @@ def test_efficiency_falls_as_the_cell_warms(gaps):
     # Silicon's gap narrows as it warms (Varshni 1967) and kT in the dark current grows:
     # the efficiency falls monotonically from 270 K to 400 K (issue 5, section 5).
     temps = [270.0, 300.0, 325.0, 350.0, 400.0]
-    eff = [gm.evaluate(gaps, "series", temperature_K=t, varshni=SI[1:]).efficiency[0]
-           for t in temps]
+    eff = [
+        gm.evaluate(gaps, "series", temperature_K=t, varshni=SI[1:]).efficiency[0] for t in temps
+    ]
     assert np.all(np.diff(eff) < 0)
     # the temperature model does nothing at the reference temperature: same numbers as
     # the ideal engine to rounding (rtol 1e-12; different code path, same formulas)
@@ -70,15 +76,18 @@ def test_bose_einstein_with_temperature_model():
     assert a.efficiency[0] == pytest.approx(b.efficiency[0], rel=1e-6)
 
 
-@pytest.mark.parametrize("kwargs, match", [
-    ({"varshni": SI[1:], "dEg_dT_eV_K": -3e-4}, "varshni: give either"),
-    ({"varshni": (-1e-4, 600.0)}, r"varshni alpha: every value must be finite and in \[0"),
-    ({"varshni": (4.7e-4, 0.0)}, "varshni beta"),
-    ({"varshni": [1, 2, 3]}, "varshni: needs one"),
-    ({"dEg_dT_eV_K": 0.5}, r"dEg_dT_eV_K: must be a number in \[-0.01, 0.01\]"),
-    ({"gap_reference_K": -5}, "gap_reference_K"),
-    ({"dEg_dT_eV_K": -0.01, "temperature_K": 1000.0}, "temperature_K: moves a gap outside"),
-])
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"varshni": SI[1:], "dEg_dT_eV_K": -3e-4}, "varshni: give either"),
+        ({"varshni": (-1e-4, 600.0)}, r"varshni alpha: every value must be finite and in \[0"),
+        ({"varshni": (4.7e-4, 0.0)}, "varshni beta"),
+        ({"varshni": [1, 2, 3]}, "varshni: needs one"),
+        ({"dEg_dT_eV_K": 0.5}, r"dEg_dT_eV_K: must be a number in \[-0.01, 0.01\]"),
+        ({"gap_reference_K": -5}, "gap_reference_K"),
+        ({"dEg_dT_eV_K": -0.01, "temperature_K": 1000.0}, "temperature_K: moves a gap outside"),
+    ],
+)
 def test_validation(kwargs, match):
     with pytest.raises(InputError, match=match):
         gm.evaluate([1.72, 1.12], **kwargs)

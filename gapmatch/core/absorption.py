@@ -176,8 +176,9 @@ class TabulatedAbsorption:
     def alpha(self, energy_J, gap_J=None):  # noqa: N803
         """Absorption coefficient [m^-1]; the gap is not used (the table is absolute)."""
         e = np.asarray(energy_J, dtype=float)
-        return np.interp(e, self.energy_J, self.alpha_per_m, left=0.0,
-                         right=float(self.alpha_per_m[-1]))
+        return np.interp(
+            e, self.energy_J, self.alpha_per_m, left=0.0, right=float(self.alpha_per_m[-1])
+        )
 
     def floor_J(self, gap_J):  # noqa: N803
         """Lowest tabulated photon energy [J]."""
@@ -260,6 +261,7 @@ def step_optics(gaps_J, spectrum: Spectrum) -> Optics:  # noqa: N803
     Optics
         ``j0_unit`` is ``None``.
     """
+
     def shares(f):
         acc = np.maximum.accumulate(f, axis=1)
         prev = np.concatenate([np.zeros((f.shape[0], 1)), acc[:, :-1]], axis=1)
@@ -341,8 +343,10 @@ def stack_optics(
     t = np.broadcast_to(np.asarray(temperature_K, dtype=float), g.shape)
     d = np.broadcast_to(np.asarray(thickness_m, dtype=float), g.shape)
     nidx = np.broadcast_to(np.asarray(refractive_index, dtype=float), (n,))
-    floors = np.stack([g[:, i] if absorbers[i] is None else absorbers[i].floor_J(g[:, i])
-                       for i in range(n)], axis=1)
+    floors = np.stack(
+        [g[:, i] if absorbers[i] is None else absorbers[i].floor_J(g[:, i]) for i in range(n)],
+        axis=1,
+    )
     kt = K_B * t
     step = float(kt.min()) / 15.0
     e_lo = max(float(floors.min()) - step, 0.01 * EV)
@@ -356,12 +360,20 @@ def stack_optics(
     edges = np.concatenate([np.broadcast_to(base, (m, base.size)), extra], axis=1)
     order = np.argsort(edges, axis=1, kind="stable")
     edges = np.take_along_axis(edges, order, axis=1)
-    fe = np.take_along_axis(np.concatenate(
-        [np.broadcast_to(f_base, (m, base.size)), spectrum.photon_flux_above(extra)], axis=1),
-        order, axis=1)
-    pe = np.take_along_axis(np.concatenate(
-        [np.broadcast_to(p_base, (m, base.size)), spectrum.power_above(extra)], axis=1),
-        order, axis=1)
+    fe = np.take_along_axis(
+        np.concatenate(
+            [np.broadcast_to(f_base, (m, base.size)), spectrum.photon_flux_above(extra)], axis=1
+        ),
+        order,
+        axis=1,
+    )
+    pe = np.take_along_axis(
+        np.concatenate(
+            [np.broadcast_to(p_base, (m, base.size)), spectrum.power_above(extra)], axis=1
+        ),
+        order,
+        axis=1,
+    )
     # bins between nodes, plus the open bin above the top node. The absorptance of a bin
     # is taken at the centroid of the bin's weight (photon energy of the incident photons
     # dP/dPhi; mean energy of the emitted photons), which removes the first-order error
@@ -384,8 +396,8 @@ def stack_optics(
     j0 = np.empty((m, n))
     cache: tuple | None = None
     for i in range(n):
-        gi = g[:, i:i + 1]
-        kti = kt[:, i:i + 1]
+        gi = g[:, i : i + 1]
+        kti = kt[:, i : i + 1]
         if absorbers[i] is None:
             a = (mids > gi).astype(float)
             # step absorber: the closed-form radiative saturation current (ideal engine)
@@ -404,7 +416,7 @@ def stack_optics(
                     e_em = np.where(dg > 0, kti * dg3 / dg, mids)
                 cache = (kti, dg, np.clip(e_em, lo_c, hi_c))
             _, dg, e_em = cache
-            di = d[:, i:i + 1]
+            di = d[:, i : i + 1]
             a = absorptance(absorbers[i].alpha(e_sun, gi) * di, trapping[i], nidx[i])
             a_em = absorptance(absorbers[i].alpha(e_em, gi) * di, trapping[i], nidx[i])
             j0[:, i] = Q * PLANCK_PREFACTOR * kti[:, 0] ** 3 * np.einsum("ij,ij->i", a_em, dg)

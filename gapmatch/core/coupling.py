@@ -72,8 +72,12 @@ def voc_gain_restricted_cone(temperature_K, half_angle_rad):  # noqa: N803
     .. [1] Standard consequence of the generalised Planck law (J0 proportional to the
        etendue of emission), e.g. Marti et al., J. Appl. Phys. 82, 4067 (1997).
     """
-    return K_B * np.asarray(temperature_K, float) / Q * -np.log(
-        emission_factor_from_half_angle(half_angle_rad))
+    return (
+        K_B
+        * np.asarray(temperature_K, float)
+        / Q
+        * -np.log(emission_factor_from_half_angle(half_angle_rad))
+    )
 
 
 def voc_loss_rear_emission(temperature_K, refractive_index, front_factor=1.0):  # noqa: N803
@@ -210,8 +214,14 @@ def solve_independent_coupled(jph, j0, vt, k, r=0.0, *, tol_rel=1e-13, max_sweep
         j_old = j.copy()
         for i in range(n):
             jeff[:, i] = jph[:, i] + (k[:, i - 1] * (jeff[:, i - 1] - j[:, i - 1]) if i else 0.0)
-            j[:, i] = _mpp_with_price(jeff[:, i], j0[:, i], vt[:, i], r[:, i], price[:, i],
-                                      np.clip(j[:, i], 0.0, jeff[:, i]))
+            j[:, i] = _mpp_with_price(
+                jeff[:, i],
+                j0[:, i],
+                vt[:, i],
+                r[:, i],
+                price[:, i],
+                np.clip(j[:, i], 0.0, jeff[:, i]),
+            )
         mu = np.zeros(m)
         for i in range(n - 1, 0, -1):
             w = jeff[:, i] + j0[:, i] - j[:, i]

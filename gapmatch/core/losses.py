@@ -65,15 +65,31 @@ import numpy as np
 
 from ..units import K_B, Q
 
-__all__ = ["TERMS", "LossBreakdown", "carnot_per_carrier", "boltzmann_per_carrier",
-           "compute_losses"]
+__all__ = [
+    "TERMS",
+    "LossBreakdown",
+    "carnot_per_carrier",
+    "boltzmann_per_carrier",
+    "compute_losses",
+]
 
 #: loss terms in display order (``output`` last)
 TERMS = (
-    "below_gap", "incomplete_absorption", "thermalisation", "incomplete_collection",
-    "emission", "nonradiative", "carnot", "boltzmann", "voltage_radiative",
-    "voltage_nonradiative", "voltage_mpp", "mismatch", "series_resistance",
-    "luminescent_transfer", "output",
+    "below_gap",
+    "incomplete_absorption",
+    "thermalisation",
+    "incomplete_collection",
+    "emission",
+    "nonradiative",
+    "carnot",
+    "boltzmann",
+    "voltage_radiative",
+    "voltage_nonradiative",
+    "voltage_mpp",
+    "mismatch",
+    "series_resistance",
+    "luminescent_transfer",
+    "output",
 )
 _STACK_ONLY = ("below_gap", "incomplete_absorption")
 
@@ -122,8 +138,7 @@ class LossBreakdown:
     @property
     def terms(self) -> tuple[str, ...]:
         """Names of the terms present, display order."""
-        return tuple(t for t in TERMS if t in self.junction or t in self.stack
-                     or t == "output")
+        return tuple(t for t in TERMS if t in self.junction or t in self.stack or t == "output")
 
     def totals(self) -> dict:
         """Stack totals of every term [W m^-2], ``(M,)`` each, ``output`` included."""
@@ -216,8 +231,10 @@ def compute_losses(
     """
     g = np.asarray(gaps_J, float)
     t = np.broadcast_to(np.asarray(temperature_K, float), g.shape)
-    ere, eta, ff, n2r, c = (np.broadcast_to(np.asarray(x, float), g.shape)
-                            for x in (ere, collection, front_factor, n2r, coupling_fraction))
+    ere, eta, ff, n2r, c = (
+        np.broadcast_to(np.asarray(x, float), g.shape)
+        for x in (ere, collection, front_factor, n2r, coupling_fraction)
+    )
     d = ref_jeff - ref_j
     beta = ere * n2r / (ff + n2r)
     sent = c * beta * d  # coupled luminescence sent down [A m^-2]
@@ -249,9 +266,9 @@ def compute_losses(
     st = {
         "below_gap": np.asarray(optics.trans_below, float),
         "incomplete_absorption": np.asarray(optics.trans_above, float),
-        "series_resistance": np.broadcast_to(np.asarray(stack_r, float) * np.nan_to_num(
-            np.asarray(stack_j, float)) ** 2, g.shape[:1]).copy(),
+        "series_resistance": np.broadcast_to(
+            np.asarray(stack_r, float) * np.nan_to_num(np.asarray(stack_j, float)) ** 2, g.shape[:1]
+        ).copy(),
     }
     j_out = jt.pop("output")
-    return LossBreakdown(jt, st, float(incident_W_m2), np.asarray(p_out, float), blackbody,
-                         j_out)
+    return LossBreakdown(jt, st, float(incident_W_m2), np.asarray(p_out, float), blackbody, j_out)

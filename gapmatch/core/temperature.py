@@ -137,5 +137,6 @@ class GapTemperature:
         """dE_g/dT [J K^-1] per junction at ``temperature_K`` (0 where not modelled)."""
         with np.errstate(invalid="ignore"):
             v = varshni_slope(self.alpha_J_K, self.beta_K, temperature_K)
-        return np.where(np.isfinite(v), v, np.where(np.isfinite(self.slope_J_K),
-                                                    self.slope_J_K, 0.0))
+        return np.where(
+            np.isfinite(v), v, np.where(np.isfinite(self.slope_J_K), self.slope_J_K, 0.0)
+        )

@@ -57,8 +57,12 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
             if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
                 continue
             if len(row) < 2:
-                raise InputError(field, f"row {lineno}: needs two columns, wavelength [nm] and "
-                                 "absorption coefficient [cm^-1]", ",".join(row))
+                raise InputError(
+                    field,
+                    f"row {lineno}: needs two columns, wavelength [nm] and "
+                    "absorption coefficient [cm^-1]",
+                    ",".join(row),
+                )
             try:
                 a, b = float(row[0]), float(row[1])
             except ValueError:
@@ -70,11 +74,16 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
             if a <= 0:
                 raise InputError(field, f"row {lineno}: wavelength must be > 0 nm", a)
             if b < 0:
-                raise InputError(field, f"row {lineno}: absorption coefficient must be >= 0 "
-                                 "cm^-1", b)
+                raise InputError(
+                    field, f"row {lineno}: absorption coefficient must be >= 0 cm^-1", b
+                )
             if wl and a <= wl[-1]:
-                raise InputError(field, f"row {lineno}: wavelengths must be strictly increasing "
-                                 f"(previous row {rows[-1]} has {wl[-1]:g} nm)", a)
+                raise InputError(
+                    field,
+                    f"row {lineno}: wavelengths must be strictly increasing "
+                    f"(previous row {rows[-1]} has {wl[-1]:g} nm)",
+                    a,
+                )
             wl.append(a)
             al.append(b)
             rows.append(lineno)
