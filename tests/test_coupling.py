@@ -173,3 +173,15 @@ def test_cone_at_the_sun_half_angle_under_full_concentration():
 def test_validation(kwargs, match):
     with pytest.raises(InputError, match=match):
         gm.evaluate([1.72, 1.12], **kwargs)
+
+
+@pytest.mark.parametrize("c", [0.0, 0.3, 1.0])
+@pytest.mark.parametrize("gaps", [[1.45, 1.12], [1.9, 1.12], [2.0, 1.5, 1.0]])
+def test_series_never_beats_independent_with_the_same_coupling(gaps, c):
+    # With the same junctions and coupling, a series string is a constrained independent
+    # connection, so its power cannot exceed the independent optimum (common practice, no
+    # source; tolerance 1e-12 relative for rounding). Coupling fraction 1 brings a
+    # bottom-limited series stack close to it (radiative limit).
+    s = gm.evaluate(gaps, "series", coupling_fraction=c, refractive_index=3.6).efficiency[0]
+    i = gm.evaluate(gaps, "independent", coupling_fraction=c, refractive_index=3.6).efficiency[0]
+    assert s <= i * (1 + 1e-12)
