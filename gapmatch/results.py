@@ -42,6 +42,9 @@ class Conditions:
         ``"boltzmann"`` or ``"bose-einstein"``.
     emission : str
         Emission geometry in words.
+    physics : dict or None
+        The opt-in non-ideal physics as given (absorbers, thicknesses, coupling, gap
+        temperature model, collection, series resistance); ``None`` for the ideal limit.
     """
 
     spectrum: str
@@ -301,7 +304,12 @@ class BatchResult:
             ``jmpp_mA_cm2``, ``mismatch_ratio``, ``absorbed_W_m2``, ``incident_W_m2``,
             ``conditions``, and ``junctions``: a list (top first) of objects with
             ``gap_eV``, ``jph_mA_cm2``, ``jsc_mA_cm2``, ``voc_V``, ``v_op_V``,
-            ``j_op_mA_cm2``, ``p_op_W_m2``, ``power_share``.
+            ``j_op_mA_cm2``, ``p_op_W_m2``, ``power_share``. With non-ideal physics the
+            junction objects also carry ``jph_total_mA_cm2`` (incident plus coupled
+            luminescence at the operating point) and, with a gap temperature model,
+            ``gap_cell_eV`` (the gap at the cell temperature; ``gap_eV`` is the gap as
+            given); ``conditions`` gains ``physics``. With ``losses=True`` the top level
+            gains ``losses_W_m2`` (see :meth:`LossTable.stack`).
         """
         s = self.solution
         op = s.op
