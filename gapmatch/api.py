@@ -455,7 +455,7 @@ def evaluate(
         if losses:
             sol.losses = solve_stacks_nonideal(
                 g * EV, spec, connection, None, temperature_K=t, ere=e,
-                dark_model=dark_current, vm_ratio=ratio, losses=True).losses
+                dark_model=dark_current, vm_ratio=ratio, losses=True, given=sol).losses
     else:
         sol = solve_stacks_nonideal(g * EV, spec, connection, device, temperature_K=t,
                                     ere=e, dark_model=dark_current, vm_ratio=ratio,

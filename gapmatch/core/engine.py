@@ -290,6 +290,7 @@ def solve_stacks_nonideal(
     losses: bool = False,
     chunk: int | None = None,
     threads: int | None = None,
+    given: StackSolution | None = None,
 ) -> StackSolution:
     """Evaluate stacks with finite absorbers, coupling, temperature and practical losses.
 
@@ -317,6 +318,9 @@ def solve_stacks_nonideal(
         Stacks per work unit (default: 256 with finite absorbers, all at once otherwise).
     threads : int, optional
         Worker threads over work units (default: the number of CPUs).
+    given : StackSolution, optional
+        Ideal device only: the :func:`solve_stacks` solution of the same batch; its
+        operating point is used as is and only the loss breakdown is computed.
 
     Returns
     -------
@@ -340,12 +344,14 @@ def solve_stacks_nonideal(
     }
     if chunk is None:
         chunk = m if device.all_step() else 256
+    if given is not None:
+        chunk = m
     def part(s0):
         sl = slice(s0, min(m, s0 + chunk))
         return _solve_nonideal(g[sl], spectrum, connection, device,
                                {k: v[sl] for k, v in full.items()}, dark_model,
                                vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1
-                               else np.asarray(vm_ratio)[sl], vm_max_cells, losses)
+                               else np.asarray(vm_ratio)[sl], vm_max_cells, losses, given)
 
     starts = list(range(0, m, chunk))
     threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
@@ -379,7 +385,7 @@ def _per_junction_array(value, shape, pad=0.0):
 
 
 def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ratio,
-                    vm_max_cells, want_losses) -> StackSolution:
+                    vm_max_cells, want_losses, given=None) -> StackSolution:
     from .absorption import stack_optics, step_optics
     from .connections import solve_independent_resistive, solve_series_resistive
     from .coupling import (
@@ -434,7 +440,9 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
     jeff_act = jph
     r_junction = np.zeros(shape)
     r_stack = np.zeros(m)
-    if connection == "series":
+    if given is not None:
+        op, voc_j = given.op, given.voc_junction
+    elif connection == "series":
         r_stack = np.broadcast_to(r if r.ndim == 0 else r.reshape(-1)[0], (m,))
         dd = diodes
         if coupled:
