@@ -550,7 +550,18 @@ def jv_curve(result: BatchResult, i: int = 0, spectrum: str | Spectrum = "AM1.5G
         ``junctions``: a list of ``(voltage [V], current density [mA cm^-2])`` arrays,
         one per junction from 0 to its V_oc; ``stack``: the series string's curve
         (series connection only, else ``None``).
+
+    Notes
+    -----
+    For a result evaluated with non-ideal physics (finite absorbers, emission cone, gap
+    temperature model, collection, series resistance) the curves are rebuilt from the
+    result's own photocurrents and open-circuit voltages (Boltzmann diodes), and
+    ``spectrum`` and ``conditions`` are not used; the series curve includes the stack's
+    series resistance. Luminescent coupling and the Bose-Einstein dark current are not
+    drawn (InputError).
     """
+    if result.conditions.physics is not None:
+        return _jv_curve_nonideal(result, i, points)
     t = conditions.get("temperature_K", 300.0)
     e = conditions.get("ere", 1.0)
     model = conditions.get("dark_current", "boltzmann")
@@ -575,5 +586,35 @@ def jv_curve(result: BatchResult, i: int = 0, spectrum: str | Spectrum = "AM1.5G
         dd = make_diodes(model, np.repeat(jph, points, 0), np.repeat(gaps, points, 0), t, e, 1.0)
         with np.errstate(divide="ignore"):
             v = dd.voltage(j[:, None]).sum(axis=1)
+        stack = (v, 0.1 * j)
+    return {"junctions": curves, "stack": stack}
+
+
+def _jv_curve_nonideal(result: BatchResult, i: int, points: int) -> dict:
+    """J-V curves of a non-ideal result from its own photocurrents and V_oc."""
+    from .units import K_B, Q
+
+    phys = result.conditions.physics
+    if phys.get("coupling_fraction") is not None:
+        raise InputError("jv_curve", "curves of luminescently coupled stacks are not drawn")
+    if result.conditions.dark_current != "boltzmann":
+        raise InputError("jv_curve", "non-ideal curves need the 'boltzmann' dark current")
+    sol = result.solution
+    n = sol.jph.shape[1]
+    t = np.broadcast_to(np.asarray(result.conditions.temperature_K, float), (n,))
+    vt = K_B * t / Q
+    jph = sol.jph[i]
+    voc = sol.voc_junction[i]
+    j0 = jph / np.expm1(voc / vt)
+    curves = []
+    for k in range(n):
+        v = np.linspace(0.0, voc[k], points)
+        curves.append((v, 0.1 * (jph[k] - j0[k] * np.expm1(v / vt[k]))))
+    stack = None
+    if result.connection == "series":
+        r = float(np.asarray(phys.get("series_resistance_ohm_cm2", 0.0), float).ravel()[0])
+        j = np.linspace(0.0, jph.min(), points)
+        with np.errstate(divide="ignore"):
+            v = (vt * np.log1p((jph - j[:, None]) / j0)).sum(axis=1) - r * 1e-4 * j
         stack = (v, 0.1 * j)
     return {"junctions": curves, "stack": stack}

@@ -262,3 +262,13 @@ def test_thinning_a_low_gap_top_cell_current_matches_a_series_stack():
     j = res.solution.jph[best]
     assert abs(j[0] - j[1]) / j.max() < 0.10
     assert res.mismatch_ratio[-1] < 0.6
+
+
+def test_thinner_top_cell_emits_less():
+    # Reciprocity (Rau 2007): the radiative dark current follows the absorptance, so a
+    # thinner top cell has a smaller J0 (it emits less) as well as a smaller J_ph.
+    th = np.array([50.0, 200.0, 1000.0, 1e5])
+    res = evaluate_thickness([1.72, 1.12], th, "independent")
+    vt = sc.k * 300.0 / sc.e
+    j0 = res.solution.jph[:, 0] / np.expm1(res.solution.voc_junction[:, 0] / vt)
+    assert np.all(np.diff(j0) > 0)

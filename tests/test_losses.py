@@ -428,3 +428,24 @@ def test_cli_errors_are_one_line(capsys):
         == 2
     )
     assert "--alpha-file" in capsys.readouterr().err
+
+
+def test_jv_curve_of_a_non_ideal_result():
+    # The curves pass through the result's own operating point (series stack with
+    # resistance and a thin top cell); tolerance 1e-5 relative: linear interpolation on
+    # the 2000-point current grid (V'' dJ^2 / 8 is about 5e-6 V near the maximum power).
+    res = gm.evaluate(
+        [1.72, 1.12],
+        "series",
+        absorber=["direct", "step"],
+        thickness_nm=[300, 0],
+        series_resistance_ohm_cm2=1.0,
+    )
+    cur = gm.jv_curve(res, 0, points=2000)
+    v, j = cur["stack"]
+    v_at = np.interp(0.1 * res.solution.op.j_mpp[0], j, v)
+    assert v_at == pytest.approx(res.solution.op.v_mpp[0], rel=1e-5)
+    vj, jj = cur["junctions"][0]
+    assert jj[0] == pytest.approx(0.1 * res.solution.jph[0, 0], rel=1e-12)
+    with pytest.raises(InputError, match="jv_curve"):
+        gm.jv_curve(gm.evaluate([1.72, 1.12], coupling_fraction=1.0), 0)
