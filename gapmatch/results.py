@@ -21,7 +21,7 @@ import pandas as pd
 from .core.engine import StackSolution
 from .units import EV
 
-__all__ = ["Conditions", "BatchResult"]
+__all__ = ["Conditions", "BatchResult", "LossTable"]
 
 
 @dataclass(frozen=True)
@@ -42,6 +42,9 @@ class Conditions:
         ``"boltzmann"`` or ``"bose-einstein"``.
     emission : str
         Emission geometry in words.
+    physics : dict or None
+        The opt-in non-ideal physics as given (absorbers, thicknesses, coupling, gap
+        temperature model, collection, series resistance); ``None`` for the ideal limit.
     """
 
     spectrum: str
@@ -50,6 +53,7 @@ class Conditions:
     ere: Any = 1.0
     dark_current: str = "boltzmann"
     emission: str = "front surface only, into a hemisphere, refractive index 1"
+    physics: dict | None = None  #: opt-in non-ideal physics (None: the ideal limit)
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
@@ -63,7 +67,80 @@ class Conditions:
             "ere": conv(self.ere),
             "dark_current": self.dark_current,
             "emission": self.emission,
+        } | ({} if self.physics is None else {"physics": self.physics})
+
+
+@dataclass
+class LossTable:
+    """Loss breakdown of a batch [W m^-2] (see :mod:`gapmatch.core.losses` for the terms).
+
+    Attributes
+    ----------
+    breakdown : gapmatch.core.losses.LossBreakdown
+        The SI arrays.
+    gaps_eV : numpy.ndarray
+        Gaps of the stacks as given [eV], ``(M, N)``.
+    """
+
+    breakdown: Any
+    gaps_eV: np.ndarray
+
+    @property
+    def terms(self) -> tuple[str, ...]:
+        """Term names in display order (``output`` last)."""
+        return self.breakdown.terms
+
+    def totals(self) -> dict:
+        """Stack totals per term [W m^-2], ``(M,)`` arrays."""
+        return self.breakdown.totals()
+
+    def closure_error(self) -> np.ndarray:
+        """Relative difference between the incident power and the sum of all terms."""
+        return self.breakdown.closure_error()
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per stack: ``gap_i_eV``, ``<term>_W_m2`` for every term (stack totals,
+        ``output_W_m2`` last but one), ``incident_W_m2`` and ``closure_rel`` (relative
+        closure error)."""
+        cols: dict[str, Any] = {}
+        for i in range(self.gaps_eV.shape[1]):
+            cols[f"gap_{i + 1}_eV"] = self.gaps_eV[:, i]
+        for k, v in self.totals().items():
+            cols[f"{k}_W_m2"] = v
+        cols["incident_W_m2"] = self.breakdown.incident_W_m2
+        cols["closure_rel"] = self.closure_error()
+        return pd.DataFrame(cols)
+
+    def junction_frame(self) -> pd.DataFrame:
+        """One row per junction: ``stack``, ``junction`` (1 = top), ``gap_eV`` and
+        ``<term>_W_m2`` for every per-junction term, ``output_W_m2`` last."""
+        b = self.breakdown
+        m, n = self.gaps_eV.shape
+        cols: dict[str, Any] = {
+            "stack": np.repeat(np.arange(m), n),
+            "junction": np.tile(np.arange(1, n + 1), m),
+            "gap_eV": self.gaps_eV.ravel(),
         }
+        for k, v in b.junction.items():
+            cols[f"{k}_W_m2"] = v.ravel()
+        cols["output_W_m2"] = b.junction_output_W_m2.ravel()
+        return pd.DataFrame(cols)
+
+    def stack(self, i: int = 0) -> dict:
+        """JSON-ready breakdown of stack ``i`` [W m^-2]: ``incident``, every term's stack
+        total (``output`` included), ``closure_rel`` and ``junctions`` (per-junction
+        terms, top first; stack-level terms are not repeated there)."""
+        b = self.breakdown
+        out: dict[str, Any] = {"incident": b.incident_W_m2}
+        for k, v in self.totals().items():
+            out[k] = float(v[i])
+        out["closure_rel"] = float(self.closure_error()[i])
+        out["junctions"] = [
+            {"junction": k + 1, **{t: float(v[i, k]) for t, v in b.junction.items()},
+             "output": float(b.junction_output_W_m2[i, k])}
+            for k in range(self.gaps_eV.shape[1])
+        ]
+        return out
 
 
 def _num(x: float) -> float | None:
@@ -150,6 +227,13 @@ class BatchResult:
         with np.errstate(divide="ignore", invalid="ignore"):
             return np.where(tot > 0, p / tot, 0.0)
 
+    @property
+    def losses(self) -> LossTable | None:
+        """Loss breakdown (``evaluate(..., losses=True)``), else ``None``."""
+        if self.solution.losses is None:
+            return None
+        return LossTable(self.solution.losses, self.gaps_eV)
+
     def best(self) -> int:
         """Index of the most efficient stack."""
         return int(np.argmax(self.efficiency))
@@ -220,7 +304,12 @@ class BatchResult:
             ``jmpp_mA_cm2``, ``mismatch_ratio``, ``absorbed_W_m2``, ``incident_W_m2``,
             ``conditions``, and ``junctions``: a list (top first) of objects with
             ``gap_eV``, ``jph_mA_cm2``, ``jsc_mA_cm2``, ``voc_V``, ``v_op_V``,
-            ``j_op_mA_cm2``, ``p_op_W_m2``, ``power_share``.
+            ``j_op_mA_cm2``, ``p_op_W_m2``, ``power_share``. With non-ideal physics the
+            junction objects also carry ``jph_total_mA_cm2`` (incident plus coupled
+            luminescence at the operating point) and, with a gap temperature model,
+            ``gap_cell_eV`` (the gap at the cell temperature; ``gap_eV`` is the gap as
+            given); ``conditions`` gains ``physics``. With ``losses=True`` the top level
+            gains ``losses_W_m2`` (see :meth:`LossTable.stack`).
         """
         s = self.solution
         op = s.op
@@ -256,4 +345,12 @@ class BatchResult:
             }
             for k in range(self.n_junctions)
         ]
+        ex = s.extras or {}
+        for k, row in enumerate(out["junctions"]):
+            if "gaps_ref_J" in ex:
+                row["gap_cell_eV"] = float(s.gaps_J[i, k] / EV)
+            if "jph_total" in ex:
+                row["jph_total_mA_cm2"] = float(0.1 * ex["jph_total"][i, k])
+        if s.losses is not None:
+            out["losses_W_m2"] = self.losses.stack(i)
         return out

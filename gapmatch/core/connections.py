@@ -43,6 +43,8 @@ __all__ = [
     "solve_voltage_matched",
     "candidate_ratios",
     "best_ratio_voltage_matched",
+    "solve_series_resistive",
+    "solve_independent_resistive",
 ]
 
 CONNECTIONS = ("series", "independent", "voltage-matched")
@@ -302,3 +304,102 @@ def best_ratio_voltage_matched(d, max_cells: int | None = None,
         best_k[rows] = np.argmax(pk, axis=1)
         best_p[rows] = pk[np.arange(rows.size), best_k[rows]]
     return solve_voltage_matched(d, cand[best_k], single=single)
+
+
+def solve_series_resistive(d, r) -> OperatingPoint:
+    """Exact maximum power point of series stacks with a lumped series resistance.
+
+    Parameters
+    ----------
+    d : BoltzmannDiodes or BoseEinsteinDiodes
+        Junction diodes, shape ``(M, N)``.
+    r : float or numpy.ndarray
+        Series resistance of the stack [ohm m^2] (1 ohm cm^2 = 1e-4 ohm m^2), ``(M,)``.
+
+    Returns
+    -------
+    OperatingPoint
+        ``v_mpp = sum_i V_i(J) - r J`` is the terminal voltage; ``v_junction`` holds the
+        junction voltages, so ``p_junction`` is the power each junction generates before
+        the resistive loss ``r J^2``.
+
+    Notes
+    -----
+    ``P(J) = J (S(J) - r J)`` is strictly concave on ``(0, min J_ph]`` (``S`` is concave
+    and decreasing, ``-r J^2`` concave); its maximum is the root of
+    ``S - J S1 - 2 r J`` (``S1 = -dS/dJ``), found by safeguarded Newton iteration. ``J_sc``
+    is the root of ``S(J) = r J``.
+    """
+    jph = d.jph
+    m = jph.shape[0]
+    r = np.broadcast_to(np.asarray(r, dtype=float), (m,))
+    rows = np.arange(m)
+    lim = np.argmin(jph, axis=1)
+    jmin = np.maximum(jph[rows, lim], 0.0)
+
+    def grad(j):
+        s, s1, _ = d.series_terms(j)
+        return s - j * s1 - 2.0 * r * j
+
+    def hess(j):
+        _, s1, s2 = d.series_terms(j)
+        return -2.0 * s1 - j * s2 - 2.0 * r
+
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        x0 = np.clip(d.series_guess(np.where(jmin > 0, jmin, 1.0), lim), 0.0, jmin)
+        x0 = np.where(np.isfinite(x0), x0, 0.5 * jmin)
+        j = maximise_concave(grad, hess, np.zeros(m), jmin, x0)
+        j = np.where(jmin > 0, j, 0.0)
+        vj = d.voltage(j[:, None])
+        vj = np.where((jmin > 0)[:, None], vj, d.voc())
+        jl = d.j_limit().min(axis=1) * (1.0 - 1e-12)
+
+        def g(jj):
+            return d.series_terms(jj)[0] - r * jj
+
+        def dg(jj):
+            return -d.series_terms(jj)[1] - r
+
+        jsc = maximise_concave(g, dg, np.zeros(m), jl, np.minimum(jmin, jl))
+    v = vj.sum(axis=1) - r * j
+    jj = np.broadcast_to(j[:, None], vj.shape).copy()
+    return OperatingPoint(j * v, v, j, d.voc().sum(axis=1), jsc, vj, jj)
+
+
+def solve_independent_resistive(d, r) -> OperatingPoint:
+    """Each junction at its exact maximum power point behind its own series resistance.
+
+    Parameters
+    ----------
+    d : BoltzmannDiodes or BoseEinsteinDiodes
+        Junction diodes, shape ``(M, N)``.
+    r : float or numpy.ndarray
+        Series resistance of each junction [ohm m^2], broadcast to ``(M, N)``.
+
+    Returns
+    -------
+    OperatingPoint
+        ``v_junction`` are the junction voltages (the sub-cell's terminal voltage is
+        ``V - r J``); ``p_mpp = sum_i J_i (V_i - r_i J_i)``.
+
+    Notes
+    -----
+    ``J (V(J) - r J)`` is strictly concave in ``J`` on ``[0, J_ph]``; Newton's method on
+    its derivative, safeguarded by bisection.
+    """
+    r = np.broadcast_to(np.asarray(r, dtype=float), d.jph.shape)
+
+    def grad(j):
+        return d.voltage(j) + j * d.dvoltage(j) - 2.0 * r * j
+
+    def hess(j):
+        return 2.0 * d.dvoltage(j) + j * d.d2voltage(j) - 2.0 * r
+
+    _, j_start = d.mpp()
+    hi = np.maximum(d.jph, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        j = maximise_concave(grad, hess, np.zeros_like(hi), hi, np.clip(j_start, 0.0, hi))
+        v = d.voltage(j)
+    p = (j * (v - r * j)).sum(axis=1)
+    nan = np.full(p.shape, np.nan)
+    return OperatingPoint(p, nan, nan, nan, nan, v, j)

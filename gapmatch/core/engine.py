@@ -21,10 +21,11 @@ from __future__ import annotations
 import os
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
-from ..units import Q
+from ..units import K_B, Q
 from .connections import (
     OperatingPoint,
     best_ratio_voltage_matched,
@@ -35,7 +36,8 @@ from .connections import (
 from .diodes import make_diodes
 from .spectra import Spectrum
 
-__all__ = ["step_photocurrents", "StackSolution", "solve_stacks"]
+__all__ = ["step_photocurrents", "StackSolution", "solve_stacks", "DeviceModel",
+           "solve_stacks_nonideal"]
 
 
 def step_photocurrents(gaps_J: np.ndarray, spectrum: Spectrum) -> np.ndarray:  # noqa: N803
@@ -87,6 +89,12 @@ class StackSolution:
     op: OperatingPoint
     incident_W_m2: float
     absorbed_W_m2: np.ndarray
+    #: loss breakdown (:class:`gapmatch.core.losses.LossBreakdown`) when requested
+    losses: Any = None
+    #: extra per-junction arrays of the non-ideal path (``gaps_ref_J``: gaps at the
+    #: reference temperature; ``jph_total``: photocurrent including coupled
+    #: luminescence at the operating point [A m^-2])
+    extras: dict | None = None
 
 
 def solve_stacks(
@@ -199,3 +207,287 @@ def _solve(gaps, spectrum, connection, *, temperature_K, ere, dark_model,  # noq
     e_min = gaps.min(axis=1)
     absorbed = spectrum.power_above(e_min)
     return StackSolution(gaps, jph, diodes.voc(), op, spectrum.total_irradiance_W_m2, absorbed)
+
+
+# ---------------------------------------------------------------------------------------
+# Beyond the ideal limit (opt-in; the hot path above is not touched)
+# ---------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class DeviceModel:
+    """Non-ideal junction physics for :func:`solve_stacks_nonideal` (SI units).
+
+    Parameters
+    ----------
+    absorbers : tuple
+        Per junction ``None`` (step absorptance) or an absorption model from
+        :mod:`.absorption`; empty means every junction is a step absorber.
+    thickness_m : float or numpy.ndarray
+        Absorber thickness [m], ``(N,)`` or ``(M, N)`` (ignored for step junctions).
+    trapping : tuple of str
+        Per junction ``"single"``, ``"double"`` or ``"lambertian"``; empty: single pass.
+    refractive_index : float or numpy.ndarray
+        Refractive index per junction (Lambertian trapping and downward emission).
+    coupling_fraction : float, numpy.ndarray or None
+        ``None``: downward emission not modelled (the ideal engine's convention).
+        Otherwise the fraction of each junction's downward emission absorbed by the
+        junction below, one value or ``(N-1,)``, in [0, 1]; the rest is lost. The bottom
+        junction's rear emission is returned by an ideal mirror.
+    emission_factor : float or numpy.ndarray
+        Front emission factor per junction (``sin^2`` of the emission half-angle).
+    collection : float or numpy.ndarray
+        Collection efficiency per junction, (0, 1]; by reciprocity it also scales the
+        radiative saturation current (Rau 2007).
+    series_r : float or numpy.ndarray
+        Series resistance [ohm m^2]: one value for a series stack, or per junction for
+        independent connection.
+    gap_temperature : GapTemperature, optional
+        Temperature dependence of the gaps (given gaps hold at its reference).
+    """
+
+    absorbers: tuple = ()
+    thickness_m: Any = np.nan
+    trapping: tuple = ()
+    refractive_index: Any = 3.5
+    coupling_fraction: Any = None
+    emission_factor: Any = 1.0
+    collection: Any = 1.0
+    series_r: Any = 0.0
+    gap_temperature: Any = None
+
+    def all_step(self) -> bool:
+        """Whether every junction has step absorptance."""
+        return all(a is None for a in self.absorbers)
+
+
+def solve_stacks_nonideal(
+    gaps_J: np.ndarray,  # noqa: N803
+    spectrum: Spectrum,
+    connection: str = "series",
+    device: DeviceModel | None = None,
+    *,
+    temperature_K: np.ndarray | float = 300.0,  # noqa: N803
+    ere: np.ndarray | float = 1.0,
+    dark_model: str = "boltzmann",
+    vm_ratio: np.ndarray | None = None,
+    vm_max_cells: int = 6,
+    losses: bool = False,
+    chunk: int | None = None,
+    threads: int | None = None,
+    given: StackSolution | None = None,
+) -> StackSolution:
+    """Evaluate stacks with finite absorbers, coupling, temperature and practical losses.
+
+    Parameters
+    ----------
+    gaps_J : numpy.ndarray
+        Gaps [J] at the reference temperature, ``(M, N)``, top first.
+    spectrum : Spectrum
+        Incident spectrum.
+    connection : {"series", "independent", "voltage-matched"}
+        Connection. Luminescent coupling and series resistance need series or
+        independent connection.
+    device : DeviceModel
+        The non-ideal physics (default: ideal, which reproduces :func:`solve_stacks`).
+    temperature_K, ere : float or numpy.ndarray
+        Cell temperature [K] and radiative efficiency (fraction of recombination that is
+        radiative, all emission channels), broadcast to ``(M, N)``.
+    dark_model : {"boltzmann", "bose-einstein"}
+        Bose-Einstein only with step absorbers and no luminescent coupling.
+    vm_ratio, vm_max_cells
+        As in :func:`solve_stacks`.
+    losses : bool
+        Also compute the loss breakdown (``StackSolution.losses``).
+    chunk : int, optional
+        Stacks per work unit (default: 256 with finite absorbers, all at once otherwise).
+    threads : int, optional
+        Worker threads over work units (default: the number of CPUs).
+    given : StackSolution, optional
+        Ideal device only: the :func:`solve_stacks` solution of the same batch; its
+        operating point is used as is and only the loss breakdown is computed.
+
+    Returns
+    -------
+    StackSolution
+        ``gaps_J`` are the gaps at the cell temperature; ``jph`` the photocurrents from
+        the incident light; ``extras`` holds ``gaps_ref_J`` and ``jph_total``.
+
+    References
+    ----------
+    .. [1] U. Rau, Phys. Rev. B 76, 085303 (2007).
+    .. [2] T. Tiedje et al., IEEE Trans. Electron Devices 31, 711 (1984).
+    .. [3] L. C. Hirst and N. J. Ekins-Daukes, Prog. Photovolt. 19, 286 (2011).
+    """
+    device = device or DeviceModel()
+    g = np.atleast_2d(np.asarray(gaps_J, dtype=float))
+    m, n = g.shape
+    full = {
+        "temperature_K": np.broadcast_to(np.asarray(temperature_K, float), (m, n)),
+        "ere": np.broadcast_to(np.asarray(ere, float), (m, n)),
+        "thickness": np.broadcast_to(np.asarray(device.thickness_m, float), (m, n)),
+    }
+    if chunk is None:
+        chunk = m if device.all_step() else 256
+    if given is not None:
+        chunk = m
+    def part(s0):
+        sl = slice(s0, min(m, s0 + chunk))
+        return _solve_nonideal(g[sl], spectrum, connection, device,
+                               {k: v[sl] for k, v in full.items()}, dark_model,
+                               vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1
+                               else np.asarray(vm_ratio)[sl], vm_max_cells, losses, given)
+
+    starts = list(range(0, m, chunk))
+    threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
+    if len(starts) == 1 or threads == 1:
+        parts = [part(s0) for s0 in starts]
+    else:  # numpy releases the GIL in its loops; results do not depend on threads
+        with ThreadPoolExecutor(max_workers=threads) as pool:
+            parts = list(pool.map(part, starts))
+    if len(parts) == 1:
+        return parts[0]
+    sol = _concat(parts)
+    sol.extras = {k: np.concatenate([p.extras[k] for p in parts]) for k in parts[0].extras}
+    if losses:
+        from .losses import LossBreakdown
+
+        lb = [p.losses for p in parts]
+        sol.losses = LossBreakdown(
+            {k: np.concatenate([x.junction[k] for x in lb]) for k in lb[0].junction},
+            {k: np.concatenate([x.stack[k] for x in lb]) for k in lb[0].stack},
+            lb[0].incident_W_m2, np.concatenate([x.output_W_m2 for x in lb]),
+            lb[0].blackbody, np.concatenate([x.junction_output_W_m2 for x in lb]))
+    return sol
+
+
+def _per_junction_array(value, shape, pad=0.0):
+    """Broadcast a scalar, ``(N,)``, ``(N-1,)`` (padded) or ``(M, N)`` value to ``shape``."""
+    a = np.asarray(value, dtype=float)
+    if a.ndim == 1 and a.size == shape[-1] - 1:
+        a = np.concatenate([a, [pad]])
+    return np.broadcast_to(a, shape)
+
+
+def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ratio,
+                    vm_max_cells, want_losses, given=None) -> StackSolution:
+    from .absorption import stack_optics, step_optics
+    from .connections import solve_independent_resistive, solve_series_resistive
+    from .coupling import (
+        coupling_coefficients,
+        downward_fraction,
+        series_chain,
+        solve_independent_coupled,
+    )
+    from .diodes import BoltzmannDiodes, BoseEinsteinDiodes, ln_j0_radiative
+
+    shape = g_ref.shape
+    m, n = shape
+    t = np.ascontiguousarray(arrs["temperature_K"])
+    ere = np.ascontiguousarray(arrs["ere"])
+    gt = device.gap_temperature
+    g = gt.gaps_at(g_ref, t) if gt is not None else g_ref.copy()
+    if device.all_step():
+        optics = step_optics(g, spectrum)
+    else:
+        absorbers = tuple(device.absorbers) + (None,) * (n - len(device.absorbers))
+        trapping = tuple(device.trapping) or ("single",) * n
+        optics = stack_optics(g, t, spectrum, absorbers, arrs["thickness"], trapping,
+                              _per_junction_array(device.refractive_index, (n,)))
+    eta = _per_junction_array(device.collection, shape)
+    ff = _per_junction_array(device.emission_factor, shape)
+    nidx = _per_junction_array(device.refractive_index, shape)
+    coupled = device.coupling_fraction is not None
+    rear_on = np.zeros(shape)
+    c = np.zeros(shape)
+    if coupled:
+        rear_on[:, :-1] = 1.0
+        c = _per_junction_array(device.coupling_fraction, shape) * rear_on
+    n2r = nidx**2 * rear_on
+    jph = eta * Q * optics.phi_abs
+    vt = K_B * t / Q
+    if optics.j0_unit is None:
+        j0_unit = np.exp(ln_j0_radiative(g, t, 1.0))
+    else:
+        j0_unit = optics.j0_unit
+    j0_unit = eta * j0_unit  # reciprocity: emission follows the EQE
+    j0 = (ff + n2r) * j0_unit / ere
+    bose = dark_model == "bose-einstein"
+    if bose and (coupled or not device.all_step()):
+        raise ValueError("the Bose-Einstein dark current needs step absorbers and no "
+                         "luminescent coupling")
+    if bose:
+        diodes = BoseEinsteinDiodes(jph, g, t, ere, eta * ff)
+    else:
+        diodes = BoltzmannDiodes(jph, j0, vt)
+    k = coupling_coefficients(downward_fraction(ere, ff, nidx, rear_on), c, eta)
+    r = np.asarray(device.series_r, dtype=float)
+    jeff_act = jph
+    r_junction = np.zeros(shape)
+    r_stack = np.zeros(m)
+    if given is not None:
+        op, voc_j = given.op, given.voc_junction
+    elif connection == "series":
+        r_stack = np.broadcast_to(r if r.ndim == 0 else r.reshape(-1)[0], (m,))
+        dd = diodes
+        if coupled:
+            dd, a, b = series_chain(jph, j0, vt, k)
+        op = solve_series_resistive(dd, r_stack) if np.any(r_stack > 0) else solve_series(dd)
+        voc_j = dd.voc()
+        if coupled:
+            jeff_act = a - (b - 1.0) * op.j_mpp[:, None]
+    elif connection == "independent":
+        r_junction = np.ascontiguousarray(_per_junction_array(r, shape))
+        if coupled:
+            j, v, jeff_act = solve_independent_coupled(jph, j0, vt, k, r_junction)
+            p = (j * (v - r_junction * j)).sum(axis=1)
+            nan = np.full(m, np.nan)
+            op = OperatingPoint(p, nan, nan, nan, nan, v, j)
+            voc_j = vt * np.log1p(jeff_act / j0)
+        elif np.any(r_junction > 0):
+            op = solve_independent_resistive(diodes, r_junction)
+            voc_j = diodes.voc()
+        else:
+            op = solve_independent(diodes)
+            voc_j = diodes.voc()
+    elif connection == "voltage-matched":
+        if coupled or np.any(r > 0):
+            raise ValueError("luminescent coupling and series resistance need series or "
+                             "independent connection")
+        if vm_ratio is not None:
+            op = solve_voltage_matched(diodes, np.asarray(vm_ratio))
+        else:
+            op = best_ratio_voltage_matched(diodes, vm_max_cells)
+        voc_j = diodes.voc()
+    else:
+        raise ValueError(f"unknown connection {connection!r}")
+    sol = StackSolution(g, jph, voc_j, op, spectrum.total_irradiance_W_m2,
+                        optics.p_abs.sum(axis=1),
+                        extras={"gaps_ref_J": g_ref, "jph_total": np.array(jeff_act, float)})
+    if want_losses:
+        from .losses import compute_losses
+
+        if coupled:
+            rj, rv, rjeff = solve_independent_coupled(jph, j0, vt, k, 0.0)
+        elif connection == "independent" and not np.any(r_junction > 0):
+            rj, rv, rjeff = op.j_junction, op.v_junction, jph
+        else:
+            rv, rj = diodes.mpp()
+            rjeff = jph
+        if bose:
+            rvoc = BoseEinsteinDiodes(rjeff, g, t, ere, eta * ff).voc()
+            rvoc_rad = BoseEinsteinDiodes(rjeff, g, t, 1.0, eta * ff).voc()
+        else:
+            rvoc = vt * np.log1p(rjeff / j0)
+            rvoc_rad = vt * np.log1p(rjeff / (j0 * ere))
+        bb = spectrum.is_blackbody
+        sol.losses = compute_losses(
+            gaps_J=g, temperature_K=t, incident_W_m2=spectrum.total_irradiance_W_m2,
+            optics=optics, ere=ere, collection=eta, front_factor=ff, n2r=n2r,
+            coupling_fraction=c, ref_j=rj, ref_v=rv, ref_jeff=rjeff, ref_voc=rvoc,
+            ref_voc_rad=rvoc_rad, act_j=op.j_junction, act_v=op.v_junction,
+            junction_r=r_junction, p_out=op.p_mpp, stack_r=r_stack, stack_j=op.j_mpp,
+            sun_K=getattr(spectrum, "sun_temperature_K", None) if bb else None,
+            sun_dilution=getattr(spectrum, "dilution", None) if bb else None,
+        )
+    return sol

@@ -1,0 +1,268 @@
+"""Plotly figures for the loss breakdown and for thickness studies (for the HTML report).
+
+* :func:`loss_breakdown_figure` -- stacked bars, one per stack of interest, showing where
+  the incident power goes (share of the incident power [%] or power density [W m^-2]).
+* :func:`junction_loss_figure` -- the same for the junctions of one stack.
+* :func:`thickness_figure` -- efficiency [%] (and each junction's photocurrent
+  [mA cm^-2]) versus the thickness of one junction [nm], from
+  :func:`gapmatch.api.evaluate_thickness`.
+
+Every figure states in its title that the numbers are theoretical limits or model
+projections, not ratings.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import plotly.graph_objects as go
+from plotly.subplots import make_subplots
+
+from .api import evaluate_thickness
+from .results import BatchResult
+
+__all__ = [
+    "LOSS_COLOURS",
+    "LOSS_LABELS",
+    "loss_breakdown_figure",
+    "junction_loss_figure",
+    "thickness_figure",
+]
+
+#: display labels of the loss terms (units in the axis titles)
+LOSS_LABELS = {
+    "below_gap": "below-gap transmission",
+    "incomplete_absorption": "incomplete absorption",
+    "thermalisation": "thermalisation",
+    "incomplete_collection": "incomplete collection",
+    "emission": "emission",
+    "nonradiative": "non-radiative recombination",
+    "carnot": "Carnot",
+    "boltzmann": "Boltzmann (etendue)",
+    "voltage_radiative": "voltage, radiative",
+    "voltage_nonradiative": "voltage, non-radiative",
+    "voltage_mpp": "voltage, V_oc to V_mpp",
+    "mismatch": "mismatch",
+    "series_resistance": "series resistance",
+    "luminescent_transfer": "luminescent transfer",
+    "output": "delivered power",
+}
+
+#: colours of the loss terms (our own choice: warm for photon losses, cool for voltage
+#: losses, grey for connection losses, green for the output)
+LOSS_COLOURS = {
+    "below_gap": "#8c2d04",
+    "incomplete_absorption": "#cc4c02",
+    "thermalisation": "#ec7014",
+    "incomplete_collection": "#fe9929",
+    "emission": "#fdd49e",
+    "nonradiative": "#b3a2c7",
+    "carnot": "#08519c",
+    "boltzmann": "#3182bd",
+    "voltage_radiative": "#6baed6",
+    "voltage_nonradiative": "#9ecae1",
+    "voltage_mpp": "#c6dbef",
+    "mismatch": "#737373",
+    "series_resistance": "#bdbdbd",
+    "luminescent_transfer": "#e7e1ef",
+    "output": "#238b45",
+}
+
+
+def _stack_label(gaps: np.ndarray) -> str:
+    return " / ".join(f"{g:.2f}" for g in gaps) + " eV"
+
+
+def loss_breakdown_figure(
+    result: BatchResult,
+    stacks: Sequence[int] | None = None,
+    *,
+    percent: bool = True,
+    title: str | None = None,
+) -> go.Figure:
+    """Stacked bars of the loss breakdown, one bar per stack.
+
+    Parameters
+    ----------
+    result : BatchResult
+        An evaluation with ``losses=True``.
+    stacks : sequence of int, optional
+        Stack indices to show (default: all, at most 20).
+    percent : bool
+        Show shares of the incident power [%] (default) or power densities [W m^-2].
+    title : str, optional
+        Figure title.
+
+    Returns
+    -------
+    plotly.graph_objects.Figure
+        Bars in ``barmode="relative"`` so that negative terms (a net luminescent transfer
+        or the photon-number gain inside ``voltage_radiative`` under a blackbody sun) are
+        drawn below zero.
+
+    Raises
+    ------
+    ValueError
+        If the result carries no loss breakdown.
+    """
+    table = result.losses
+    if table is None:
+        raise ValueError("the result has no loss breakdown: evaluate with losses=True")
+    idx = list(range(min(len(result), 20))) if stacks is None else list(stacks)
+    tot = table.totals()
+    inc = table.breakdown.incident_W_m2
+    labels = [_stack_label(result.gaps_eV[i]) for i in idx]
+    fig = go.Figure()
+    unit = "% of incident" if percent else "W m^-2"
+    for key in table.terms:
+        if key == "luminescent_transfer":
+            continue  # zero per stack
+        vals = np.asarray(tot[key])[idx]
+        y = 100.0 * vals / inc if percent else vals
+        fig.add_trace(
+            go.Bar(
+                name=LOSS_LABELS.get(key, key),
+                x=labels,
+                y=y,
+                marker_color=LOSS_COLOURS.get(key),
+                hovertemplate="%{x}<br>"
+                + LOSS_LABELS.get(key, key)
+                + ": %{y:.2f} "
+                + unit
+                + "<extra></extra>",
+            )
+        )
+    fig.update_layout(
+        barmode="relative",
+        title=title or "Where the incident power goes (theoretical model, not a rating)",
+        xaxis_title="stack (band gaps, top first)",
+        yaxis_title="share of incident power [%]" if percent else "power density [W m^-2]",
+        legend_title="term",
+    )
+    return fig
+
+
+def junction_loss_figure(result: BatchResult, i: int = 0, *, percent: bool = True) -> go.Figure:
+    """Stacked bars of the per-junction loss terms of stack ``i`` (top junction first).
+
+    Stack-level terms (below-gap transmission, incomplete absorption, the stack's own
+    series resistance) are shown as a separate "stack" bar.
+
+    Parameters
+    ----------
+    result : BatchResult
+        An evaluation with ``losses=True``.
+    i : int
+        Stack index.
+    percent : bool
+        Shares of the incident power [%] (default) or power densities [W m^-2].
+
+    Returns
+    -------
+    plotly.graph_objects.Figure
+    """
+    table = result.losses
+    if table is None:
+        raise ValueError("the result has no loss breakdown: evaluate with losses=True")
+    b = table.breakdown
+    inc = b.incident_W_m2
+    n = result.n_junctions
+    x = [f"junction {k + 1} ({result.gaps_eV[i, k]:.2f} eV)" for k in range(n)] + ["stack"]
+    scale = 100.0 / inc if percent else 1.0
+    fig = go.Figure()
+    for key in table.terms:
+        y = [np.nan] * (n + 1)
+        if key in b.junction:
+            y[:n] = list(b.junction[key][i] * scale)
+        if key == "output":
+            y[:n] = list(b.junction_output_W_m2[i] * scale)
+        if key in b.stack:
+            y[n] = float(b.stack[key][i] * scale)
+        if key == "output":
+            y[n] = np.nan
+        fig.add_trace(
+            go.Bar(name=LOSS_LABELS.get(key, key), x=x, y=y, marker_color=LOSS_COLOURS.get(key))
+        )
+    fig.update_layout(
+        barmode="relative",
+        title=f"Loss breakdown by junction, stack {_stack_label(result.gaps_eV[i])} "
+        "(theoretical model, not a rating)",
+        yaxis_title="share of incident power [%]" if percent else "power density [W m^-2]",
+        legend_title="term",
+    )
+    return fig
+
+
+def thickness_figure(
+    gaps_eV, thickness_nm, connection: str = "series", *, junction: int = 0, **kwargs
+) -> go.Figure:
+    """Efficiency versus the thickness of one junction (default the top cell).
+
+    Parameters
+    ----------
+    gaps_eV : sequence of float
+        One stack's gaps [eV], top first.
+    thickness_nm : array_like
+        Thicknesses of junction ``junction`` to evaluate [nm], 1 to 1e8.
+    connection : str
+        Connection, as in :func:`gapmatch.evaluate`.
+    junction : int
+        Junction whose thickness varies (0 = top).
+    **kwargs
+        Further :func:`gapmatch.evaluate` keywords (absorber model, Urbach energy, light
+        trapping, ...); see :func:`gapmatch.api.evaluate_thickness`.
+
+    Returns
+    -------
+    plotly.graph_objects.Figure
+        Efficiency [%] (left axis) and each junction's photocurrent [mA cm^-2] (right
+        axis) against thickness [nm] on a logarithmic axis; the most efficient thickness
+        is marked.
+    """
+    th = np.asarray(thickness_nm, dtype=float)
+    res = evaluate_thickness(gaps_eV, th, connection, junction=junction, **kwargs)
+    eff = 100.0 * res.efficiency
+    fig = make_subplots(specs=[[{"secondary_y": True}]])
+    fig.add_trace(
+        go.Scatter(
+            x=th,
+            y=eff,
+            mode="lines+markers",
+            name="efficiency [%]",
+            line={"color": "#238b45", "width": 3},
+        ),
+        secondary_y=False,
+    )
+    for k in range(res.n_junctions):
+        fig.add_trace(
+            go.Scatter(
+                x=th,
+                y=0.1 * res.solution.jph[:, k],
+                mode="lines",
+                name=f"J_ph junction {k + 1} [mA cm^-2]",
+                line={"dash": "dot"},
+            ),
+            secondary_y=True,
+        )
+    best = int(np.argmax(eff))
+    fig.add_trace(
+        go.Scatter(
+            x=[th[best]],
+            y=[eff[best]],
+            mode="markers+text",
+            text=[f"{eff[best]:.2f} % at {th[best]:.3g} nm"],
+            textposition="top center",
+            marker={"size": 12, "symbol": "star", "color": "#08519c"},
+            name="most efficient",
+        ),
+        secondary_y=False,
+    )
+    fig.update_xaxes(type="log", title_text=f"thickness of junction {junction + 1} [nm]")
+    fig.update_yaxes(title_text="efficiency [%]", secondary_y=False)
+    fig.update_yaxes(title_text="photocurrent [mA cm^-2]", secondary_y=True)
+    fig.update_layout(
+        title=f"Efficiency versus thickness, stack {_stack_label(res.gaps_eV[0])}"
+        f", {connection} (theoretical model, not a rating)"
+    )
+    return fig
