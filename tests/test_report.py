@@ -41,6 +41,8 @@ def test_files_written(demo):
             f"{NAME}_stacks.csv",
             f"{NAME}_cut.csv",
             f"{NAME}_summary.json",
+            f"{NAME}_losses_series.csv",
+            f"{NAME}_losses_independent.csv",
         ]
     )
     assert not [n for n in names if n.endswith(".tmp")]  # atomic writes leave no temporaries
@@ -275,3 +277,24 @@ def test_print_css_and_hover_units(demo):
                 n += 1
                 assert re.search(r"eV|nm|mA cm|\bV\b|%", ht), ht
     assert n > 30
+
+
+def test_loss_and_thickness_sections_in_demo(tmp_path):
+    """The physics sections render, and the loss terms close on the incident power."""
+    import json
+
+    from gapmatch.report import build_report, write_report
+    from gapmatch.study import load_study
+
+    rep = build_report(load_study("configs/demo.toml"), command="test")
+    page = write_report(rep, tmp_path)
+    html_text = page.read_text()
+    assert "Where the power goes" in html_text
+    assert "Efficiency versus top-cell thickness" in html_text
+    summary = json.loads((tmp_path / f"{rep.name}_summary.json").read_text())
+    for conn in ("series", "independent"):
+        # Hirst & Ekins-Daukes 2011 decomposition: terms add to the incident power;
+        # 1e-6 relative is the issue's closure target
+        assert summary["losses"][conn]["max_closure_error_relative"] < 1e-6
+    losses = (tmp_path / f"{rep.name}_losses_series.csv").read_text().splitlines()
+    assert len(losses) == 1 + 3  # header + the demo's three stacks of interest
