@@ -103,8 +103,7 @@ def main(argv=None) -> int:
 
     # second measured figure: a 201 x 201 two-junction map, series + independent
     t_map = _load("maps").measure()
-    print(f"map: 201 x 201 two-junction map, series + independent, in {t_map:.3f} s "
-          "(target < 1 s)")
+    print(f"map: 201 x 201 two-junction map, series + independent, in {t_map:.3f} s (target < 1 s)")
     if not args.quick:
         _load("search").report()
 

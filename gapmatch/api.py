@@ -62,18 +62,26 @@ def check_gaps(gaps_eV, *, require_descending: bool = True) -> np.ndarray:  # no
     if g.ndim == 1:
         g = g[None, :]
     if g.ndim != 2 or g.shape[0] == 0 or not 1 <= g.shape[1] <= MAX_JUNCTIONS:
-        raise InputError("gaps_eV", f"needs 1 to {MAX_JUNCTIONS} gaps per stack "
-                         "(a 1-D list, or a 2-D array with one stack per row)", g.shape)
+        raise InputError(
+            "gaps_eV",
+            f"needs 1 to {MAX_JUNCTIONS} gaps per stack "
+            "(a 1-D list, or a 2-D array with one stack per row)",
+            g.shape,
+        )
     check_finite_array("gaps_eV", g, *GAP_RANGE_EV, unit="eV")
     if require_descending and g.shape[1] > 1 and np.any(np.diff(g, axis=1) >= 0):
         row = int(np.argmax(np.any(np.diff(g, axis=1) >= 0, axis=1)))
-        raise InputError("gaps_eV", "gaps must decrease strictly from the top junction "
-                         "(facing the sun) to the bottom", g[row].tolist())
+        raise InputError(
+            "gaps_eV",
+            "gaps must decrease strictly from the top junction (facing the sun) to the bottom",
+            g[row].tolist(),
+        )
     return g
 
 
-def _per_junction(name: str, value, n: int, low: float, high: float, unit: str,
-                  low_inclusive: bool = True):
+def _per_junction(
+    name: str, value, n: int, low: float, high: float, unit: str, low_inclusive: bool = True
+):
     a = np.asarray(value, dtype=float) if not np.isscalar(value) else None
     if a is None or a.ndim == 0:
         v = check_range(name, value, low, high, low_inclusive=low_inclusive, unit=unit)
@@ -98,11 +106,28 @@ def _names(field: str, value, n: int, allowed: tuple) -> list:
     return vals
 
 
-def _build_device(g, connection, spec, t, dark_current, *, absorber, thickness_nm,
-                  alpha0_per_cm, urbach_energy_meV, alpha_file, light_trapping,
-                  refractive_index, coupling_fraction, emission_half_angle_deg, varshni,
-                  dEg_dT_eV_K, gap_reference_K, collection_efficiency,  # noqa: N803
-                  series_resistance_ohm_cm2):
+def _build_device(
+    g,
+    connection,
+    spec,
+    t,
+    dark_current,
+    *,
+    absorber,
+    thickness_nm,
+    alpha0_per_cm,
+    urbach_energy_meV,
+    alpha_file,
+    light_trapping,
+    refractive_index,
+    coupling_fraction,
+    emission_half_angle_deg,
+    varshni,
+    dEg_dT_eV_K,
+    gap_reference_K,
+    collection_efficiency,  # noqa: N803
+    series_resistance_ohm_cm2,
+):
     """Validate the opt-in physics keywords; ``(None, None)`` when all are at defaults."""
     import math
 
@@ -128,11 +153,15 @@ def _build_device(g, connection, spec, t, dark_current, *, absorber, thickness_n
     thick = np.full((m, n), np.nan)
     if finite:
         if dark_current != "boltzmann":
-            raise InputError("dark_current", "finite absorbers need the 'boltzmann' dark "
-                             "current", dark_current)
+            raise InputError(
+                "dark_current", "finite absorbers need the 'boltzmann' dark current", dark_current
+            )
         if thickness_nm is None:
-            raise InputError("thickness_nm", "is needed for every junction whose absorber is "
-                             f"not 'step' (junctions {', '.join(str(k + 1) for k in finite)})")
+            raise InputError(
+                "thickness_nm",
+                "is needed for every junction whose absorber is "
+                f"not 'step' (junctions {', '.join(str(k + 1) for k in finite)})",
+            )
         try:
             tarr = np.asarray(thickness_nm, dtype=float)
         except (TypeError, ValueError):
@@ -140,31 +169,40 @@ def _build_device(g, connection, spec, t, dark_current, *, absorber, thickness_n
         if tarr.ndim == 0:
             tarr = np.full(n, float(tarr))
         if tarr.shape not in ((n,), (m, n)):
-            raise InputError("thickness_nm", f"needs one value, one per junction ({n}) or an "
-                             f"({m}, {n}) array", tarr.shape)
+            raise InputError(
+                "thickness_nm",
+                f"needs one value, one per junction ({n}) or an ({m}, {n}) array",
+                tarr.shape,
+            )
         tb = np.broadcast_to(tarr, (m, n))[:, finite]
         if np.any(~np.isfinite(tb) | (tb < 1.0) | (tb > 1e8)):
-            raise InputError("thickness_nm", "every value for a non-step junction must be "
-                             "in [1, 1e8] nm", tb[~np.isfinite(tb) | (tb < 1) | (tb > 1e8)]
-                             .ravel()[:3].tolist())
+            raise InputError(
+                "thickness_nm",
+                "every value for a non-step junction must be in [1, 1e8] nm",
+                tb[~np.isfinite(tb) | (tb < 1) | (tb > 1e8)].ravel()[:3].tolist(),
+            )
         thick = np.broadcast_to(tarr, (m, n)) * 1e-9
         a0 = None
         if alpha0_per_cm is not None:
-            a0 = np.broadcast_to(_per_junction("alpha0_per_cm", alpha0_per_cm, n, 1.0, 1e7,
-                                               "cm^-1"), (n,))
+            a0 = np.broadcast_to(
+                _per_junction("alpha0_per_cm", alpha0_per_cm, n, 1.0, 1e7, "cm^-1"), (n,)
+            )
         eub = np.broadcast_to(eu, (n,))
         files = alpha_file
         if files is None or isinstance(files, str | Path):
             files = [files] * n
         files = list(files)
         if len(files) != n:
-            raise InputError("alpha_file", f"needs one path, or one entry per junction ({n})",
-                             alpha_file)
+            raise InputError(
+                "alpha_file", f"needs one path, or one entry per junction ({n})", alpha_file
+            )
         for k in finite:
             if models[k] == "table":
                 if files[k] is None:
-                    raise InputError("alpha_file", f"junction {k + 1} has absorber 'table' "
-                                     "but no absorption file")
+                    raise InputError(
+                        "alpha_file",
+                        f"junction {k + 1} has absorber 'table' but no absorption file",
+                    )
                 from .io.absorption import read_alpha_csv
 
                 absorbers[k] = read_alpha_csv(files[k])
@@ -177,23 +215,41 @@ def _build_device(g, connection, spec, t, dark_current, *, absorber, thickness_n
     cf = None
     if coupling_fraction is not None:
         if connection not in ("series", "independent"):
-            raise InputError("coupling_fraction", "luminescent coupling needs connection "
-                             "'series' or 'independent'", connection)
+            raise InputError(
+                "coupling_fraction",
+                "luminescent coupling needs connection 'series' or 'independent'",
+                connection,
+            )
         if dark_current != "boltzmann":
-            raise InputError("dark_current", "luminescent coupling needs the 'boltzmann' "
-                             "dark current", dark_current)
-        a = np.asarray(coupling_fraction, dtype=float) if not np.isscalar(
-            coupling_fraction) else None
+            raise InputError(
+                "dark_current",
+                "luminescent coupling needs the 'boltzmann' dark current",
+                dark_current,
+            )
+        a = (
+            np.asarray(coupling_fraction, dtype=float)
+            if not np.isscalar(coupling_fraction)
+            else None
+        )
         if a is not None and a.ndim == 1 and a.size != max(n - 1, 1):
-            raise InputError("coupling_fraction", f"needs one value, or one per interface "
-                             f"({n - 1})", a.tolist())
-        cf = (check_range("coupling_fraction", coupling_fraction, 0.0, 1.0) if a is None
-              else check_finite_array("coupling_fraction", a, 0.0, 1.0))
+            raise InputError(
+                "coupling_fraction", f"needs one value, or one per interface ({n - 1})", a.tolist()
+            )
+        cf = (
+            check_range("coupling_fraction", coupling_fraction, 0.0, 1.0)
+            if a is None
+            else check_finite_array("coupling_fraction", a, 0.0, 1.0)
+        )
     dil = min(1.0, spec.concentration * SUN_DILUTION)
     theta_min = math.degrees(math.asin(math.sqrt(dil)))
-    ang = _per_junction("emission_half_angle_deg", emission_half_angle_deg, n, theta_min,
-                        90.0, f"deg (smallest: the sun's apparent half-angle at this "
-                        f"concentration, {theta_min:.4g} deg)")
+    ang = _per_junction(
+        "emission_half_angle_deg",
+        emission_half_angle_deg,
+        n,
+        theta_min,
+        90.0,
+        f"deg (smallest: the sun's apparent half-angle at this concentration, {theta_min:.4g} deg)",
+    )
     ff = emission_factor_from_half_angle(np.radians(ang))
     gt = None
     if varshni is not None and dEg_dT_eV_K is not None:
@@ -205,45 +261,67 @@ def _build_device(g, connection, spec, t, dark_current, *, absorber, thickness_n
         except (TypeError, ValueError):
             raise InputError("varshni", "must be (alpha [eV/K], beta [K]) pairs", varshni) from None
         if v.shape not in ((2,), (n, 2)):
-            raise InputError("varshni", f"needs one (alpha [eV/K], beta [K]) pair or one per "
-                             f"junction ({n})", v.tolist())
+            raise InputError(
+                "varshni",
+                f"needs one (alpha [eV/K], beta [K]) pair or one per junction ({n})",
+                v.tolist(),
+            )
         v = np.broadcast_to(v, (n, 2))
         check_finite_array("varshni alpha", v[:, 0], 0.0, 0.01, unit="eV K^-1")
         check_finite_array("varshni beta", v[:, 1], 1e-9, 5000.0, unit="K")
         nan = np.full(n, np.nan)
         gt = GapTemperature(v[:, 0] * EV, v[:, 1].copy(), nan, float(gap_reference_K))
     elif dEg_dT_eV_K is not None:
-        s_ = np.broadcast_to(_per_junction("dEg_dT_eV_K", dEg_dT_eV_K, n, -0.01, 0.01,
-                                           "eV K^-1"), (n,))
+        s_ = np.broadcast_to(
+            _per_junction("dEg_dT_eV_K", dEg_dT_eV_K, n, -0.01, 0.01, "eV K^-1"), (n,)
+        )
         nan = np.full(n, np.nan)
         gt = GapTemperature(nan, nan, np.asarray(s_, float) * EV, float(gap_reference_K))
     if gt is not None:
         shifted = gt.gaps_at(g * EV, np.broadcast_to(t, g.shape)) / EV
         if np.any((shifted < GAP_RANGE_EV[0]) | (shifted > GAP_RANGE_EV[1])):
-            raise InputError("temperature_K", "moves a gap outside "
-                             f"{GAP_RANGE_EV[0]:g}-{GAP_RANGE_EV[1]:g} eV",
-                             float(shifted[(shifted < GAP_RANGE_EV[0])
-                                           | (shifted > GAP_RANGE_EV[1])][0]))
-    eta = _per_junction("collection_efficiency", collection_efficiency, n, 0.0, 1.0, "",
-                        low_inclusive=False)
-    rs = _per_junction("series_resistance_ohm_cm2", series_resistance_ohm_cm2, n, 0.0,
-                       100.0, "ohm cm^2")
+            raise InputError(
+                "temperature_K",
+                f"moves a gap outside {GAP_RANGE_EV[0]:g}-{GAP_RANGE_EV[1]:g} eV",
+                float(shifted[(shifted < GAP_RANGE_EV[0]) | (shifted > GAP_RANGE_EV[1])][0]),
+            )
+    eta = _per_junction(
+        "collection_efficiency", collection_efficiency, n, 0.0, 1.0, "", low_inclusive=False
+    )
+    rs = _per_junction(
+        "series_resistance_ohm_cm2", series_resistance_ohm_cm2, n, 0.0, 100.0, "ohm cm^2"
+    )
     if np.ndim(rs) and connection != "independent":
-        raise InputError("series_resistance_ohm_cm2", "one value per junction applies to "
-                         "connection 'independent' only; give one value for the stack")
+        raise InputError(
+            "series_resistance_ohm_cm2",
+            "one value per junction applies to "
+            "connection 'independent' only; give one value for the stack",
+        )
     if np.any(np.asarray(rs) > 0) and connection == "voltage-matched":
-        raise InputError("series_resistance_ohm_cm2", "series resistance needs connection "
-                         "'series' or 'independent'")
-    ideal = (not finite and cf is None and np.all(ff == 1.0) and gt is None
-             and np.all(np.asarray(eta) == 1.0) and np.all(np.asarray(rs) == 0.0))
+        raise InputError(
+            "series_resistance_ohm_cm2",
+            "series resistance needs connection 'series' or 'independent'",
+        )
+    ideal = (
+        not finite
+        and cf is None
+        and np.all(ff == 1.0)
+        and gt is None
+        and np.all(np.asarray(eta) == 1.0)
+        and np.all(np.asarray(rs) == 0.0)
+    )
     if ideal:
         return None, None
     device = DeviceModel(
-        absorbers=tuple(absorbers), thickness_m=thick, trapping=tuple(trapping),
+        absorbers=tuple(absorbers),
+        thickness_m=thick,
+        trapping=tuple(trapping),
         refractive_index=np.broadcast_to(nidx, (n,)).astype(float),
-        coupling_fraction=cf, emission_factor=np.broadcast_to(ff, (n,)).astype(float),
+        coupling_fraction=cf,
+        emission_factor=np.broadcast_to(ff, (n,)).astype(float),
         collection=np.broadcast_to(eta, (n,)).astype(float),
-        series_r=np.asarray(rs, dtype=float) * 1e-4, gap_temperature=gt,
+        series_r=np.asarray(rs, dtype=float) * 1e-4,
+        gap_temperature=gt,
     )
 
     def conv(x):
@@ -252,30 +330,44 @@ def _build_device(g, connection, spec, t, dark_current, *, absorber, thickness_n
 
     physics = {
         "absorber": models,
-        "thickness_nm": None if not finite else (
-            [None if not math.isfinite(x) else x
-             for x in np.atleast_1d(np.asarray(thickness_nm, float)).tolist()]
-            if np.ndim(thickness_nm) < 2 else "per stack"),
+        "thickness_nm": None
+        if not finite
+        else (
+            [
+                None if not math.isfinite(x) else x
+                for x in np.atleast_1d(np.asarray(thickness_nm, float)).tolist()
+            ]
+            if np.ndim(thickness_nm) < 2
+            else "per stack"
+        ),
         "light_trapping": trapping,
         "refractive_index": conv(nidx),
         "urbach_energy_meV": conv(eu),
         "coupling_fraction": None if cf is None else conv(cf),
         "emission_half_angle_deg": conv(ang),
-        "gap_temperature": (None if gt is None else
-                            {"varshni": conv(varshni)} if varshni is not None else
-                            {"dEg_dT_eV_K": conv(dEg_dT_eV_K)}),
+        "gap_temperature": (
+            None
+            if gt is None
+            else {"varshni": conv(varshni)}
+            if varshni is not None
+            else {"dEg_dT_eV_K": conv(dEg_dT_eV_K)}
+        ),
         "gap_reference_K": float(gap_reference_K),
         "collection_efficiency": conv(eta),
         "series_resistance_ohm_cm2": conv(rs),
     }
-    emission = ("front surface into a cone of half-angle "
-                f"{', '.join(f'{x:g}' for x in np.atleast_1d(ang))} deg, refractive index 1"
-                if np.any(ff < 1) else "front surface only, into a hemisphere, refractive "
-                "index 1")
+    emission = (
+        "front surface into a cone of half-angle "
+        f"{', '.join(f'{x:g}' for x in np.atleast_1d(ang))} deg, refractive index 1"
+        if np.any(ff < 1)
+        else "front surface only, into a hemisphere, refractive index 1"
+    )
     if cf is not None:
-        emission += (f"; downward emission n^2 x front (n = {conv(nidx)}), fraction "
-                     f"{conv(cf)} absorbed by the junction below, bottom junction on an "
-                     "ideal mirror")
+        emission += (
+            f"; downward emission n^2 x front (n = {conv(nidx)}), fraction "
+            f"{conv(cf)} absorbed by the junction below, bottom junction on an "
+            "ideal mirror"
+        )
     physics["emission"] = emission
     return device, physics
 
@@ -414,8 +506,7 @@ def evaluate(
     if connection not in CONNECTIONS:
         raise InputError("connection", f"must be one of {', '.join(CONNECTIONS)}", connection)
     if dark_current not in DARK_MODELS:
-        raise InputError("dark_current", f"must be one of {', '.join(DARK_MODELS)}",
-                         dark_current)
+        raise InputError("dark_current", f"must be one of {', '.join(DARK_MODELS)}", dark_current)
     t = _per_junction("temperature_K", temperature_K, n, *TEMPERATURE_RANGE_K, "K")
     e = _per_junction("ere", ere, n, 0.0, 1.0, "", low_inclusive=False)
     ratio = None
@@ -425,21 +516,41 @@ def evaluate(
         try:
             r = np.asarray(cells_per_string, dtype=float)
         except (TypeError, ValueError):
-            raise InputError("cells_per_string", "must be whole numbers", cells_per_string) from None
+            raise InputError(
+                "cells_per_string", "must be whole numbers", cells_per_string
+            ) from None
         if r.shape != (n,) or np.any(r != np.round(r)) or np.any(r < 1) or np.any(r > 100):
-            raise InputError("cells_per_string", f"needs {n} whole numbers in [1, 100], one "
-                             "per junction", cells_per_string)
+            raise InputError(
+                "cells_per_string",
+                f"needs {n} whole numbers in [1, 100], one per junction",
+                cells_per_string,
+            )
         ratio = r.astype(int)
-    spec = get_spectrum(spectrum, spectrum_file=spectrum_file,
-                        sun_temperature_K=sun_temperature_K,
-                        irradiance_W_m2=irradiance_W_m2, concentration=concentration)
+    spec = get_spectrum(
+        spectrum,
+        spectrum_file=spectrum_file,
+        sun_temperature_K=sun_temperature_K,
+        irradiance_W_m2=irradiance_W_m2,
+        concentration=concentration,
+    )
     device, physics = _build_device(
-        g, connection, spec, t, dark_current,
-        absorber=absorber, thickness_nm=thickness_nm, alpha0_per_cm=alpha0_per_cm,
-        urbach_energy_meV=urbach_energy_meV, alpha_file=alpha_file,
-        light_trapping=light_trapping, refractive_index=refractive_index,
-        coupling_fraction=coupling_fraction, emission_half_angle_deg=emission_half_angle_deg,
-        varshni=varshni, dEg_dT_eV_K=dEg_dT_eV_K, gap_reference_K=gap_reference_K,
+        g,
+        connection,
+        spec,
+        t,
+        dark_current,
+        absorber=absorber,
+        thickness_nm=thickness_nm,
+        alpha0_per_cm=alpha0_per_cm,
+        urbach_energy_meV=urbach_energy_meV,
+        alpha_file=alpha_file,
+        light_trapping=light_trapping,
+        refractive_index=refractive_index,
+        coupling_fraction=coupling_fraction,
+        emission_half_angle_deg=emission_half_angle_deg,
+        varshni=varshni,
+        dEg_dT_eV_K=dEg_dT_eV_K,
+        gap_reference_K=gap_reference_K,
         collection_efficiency=collection_efficiency,
         series_resistance_ohm_cm2=series_resistance_ohm_cm2,
     )
@@ -448,21 +559,51 @@ def evaluate(
     cond_extra = {}
     if device is None:
         # the ideal engine (benchmarked hot path), numbers exactly as before
-        sol = solve_stacks(g * EV, spec, connection, temperature_K=t, ere=e,
-                           dark_model=dark_current, vm_ratio=ratio)
+        sol = solve_stacks(
+            g * EV,
+            spec,
+            connection,
+            temperature_K=t,
+            ere=e,
+            dark_model=dark_current,
+            vm_ratio=ratio,
+        )
         if losses:
             sol.losses = solve_stacks_nonideal(
-                g * EV, spec, connection, None, temperature_K=t, ere=e,
-                dark_model=dark_current, vm_ratio=ratio, losses=True, given=sol).losses
+                g * EV,
+                spec,
+                connection,
+                None,
+                temperature_K=t,
+                ere=e,
+                dark_model=dark_current,
+                vm_ratio=ratio,
+                losses=True,
+                given=sol,
+            ).losses
     else:
-        sol = solve_stacks_nonideal(g * EV, spec, connection, device, temperature_K=t,
-                                    ere=e, dark_model=dark_current, vm_ratio=ratio,
-                                    losses=bool(losses))
+        sol = solve_stacks_nonideal(
+            g * EV,
+            spec,
+            connection,
+            device,
+            temperature_K=t,
+            ere=e,
+            dark_model=dark_current,
+            vm_ratio=ratio,
+            losses=bool(losses),
+        )
         cond_extra = {"physics": physics, "emission": physics["emission"]}
         if device.gap_temperature is None:
             sol.extras.pop("gaps_ref_J", None)
-    cond = Conditions(spectrum=spec.describe(), incident_W_m2=spec.total_irradiance_W_m2,
-                      temperature_K=t, ere=e, dark_current=dark_current, **cond_extra)
+    cond = Conditions(
+        spectrum=spec.describe(),
+        incident_W_m2=spec.total_irradiance_W_m2,
+        temperature_K=t,
+        ere=e,
+        dark_current=dark_current,
+        **cond_extra,
+    )
     return BatchResult(connection, sol, cond, input_gaps_eV=g)
 
 
@@ -510,8 +651,9 @@ def evaluate_thickness(
         raise InputError("thickness_nm", "needs one thickness per stack (1-D)", th.shape)
     m = max(g.shape[0], th.size)
     if g.shape[0] not in (1, m) or th.size not in (1, m):
-        raise InputError("thickness_nm", f"needs one value or one per stack ({g.shape[0]})",
-                         th.size)
+        raise InputError(
+            "thickness_nm", f"needs one value or one per stack ({g.shape[0]})", th.size
+        )
     n = g.shape[1]
     if not isinstance(junction, int | np.integer) or not 0 <= junction < n:
         raise InputError("junction", f"must be a junction index in [0, {n - 1}]", junction)
@@ -526,8 +668,13 @@ def evaluate_thickness(
     return evaluate(g, connection, thickness_nm=full, **kwargs)
 
 
-def jv_curve(result: BatchResult, i: int = 0, spectrum: str | Spectrum = "AM1.5G",
-             points: int = 200, **conditions) -> dict:
+def jv_curve(
+    result: BatchResult,
+    i: int = 0,
+    spectrum: str | Spectrum = "AM1.5G",
+    points: int = 200,
+    **conditions,
+) -> dict:
     """Current-voltage curves of stack ``i`` of a result, for plotting.
 
     Parameters
@@ -563,10 +710,15 @@ def jv_curve(result: BatchResult, i: int = 0, spectrum: str | Spectrum = "AM1.5G
     t = conditions.get("temperature_K", 300.0)
     e = conditions.get("ere", 1.0)
     model = conditions.get("dark_current", "boltzmann")
-    spec = get_spectrum(spectrum, **{k: v for k, v in conditions.items()
-                                     if k in ("spectrum_file", "sun_temperature_K",
-                                              "irradiance_W_m2", "concentration")})
-    gaps = result.solution.gaps_J[i:i + 1]
+    spec = get_spectrum(
+        spectrum,
+        **{
+            k: v
+            for k, v in conditions.items()
+            if k in ("spectrum_file", "sun_temperature_K", "irradiance_W_m2", "concentration")
+        },
+    )
+    gaps = result.solution.gaps_J[i : i + 1]
     jph = step_photocurrents(gaps, spec)
     d = make_diodes(model, jph, gaps, t, e, 1.0)
     voc = d.voc()[0]

@@ -57,9 +57,11 @@ class Conditions:
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
+
         def conv(v):
             a = np.asarray(v)
             return a.tolist() if a.ndim else float(a)
+
         return {
             "spectrum": self.spectrum,
             "incident_W_m2": self.incident_W_m2,
@@ -136,8 +138,11 @@ class LossTable:
             out[k] = float(v[i])
         out["closure_rel"] = float(self.closure_error()[i])
         out["junctions"] = [
-            {"junction": k + 1, **{t: float(v[i, k]) for t, v in b.junction.items()},
-             "output": float(b.junction_output_W_m2[i, k])}
+            {
+                "junction": k + 1,
+                **{t: float(v[i, k]) for t, v in b.junction.items()},
+                "output": float(b.junction_output_W_m2[i, k]),
+            }
             for k in range(self.gaps_eV.shape[1])
         ]
         return out
@@ -280,18 +285,20 @@ class BatchResult:
         """
         s = self.solution
         m, n = s.gaps_J.shape
-        return pd.DataFrame({
-            "stack": np.repeat(np.arange(m), n),
-            "junction": np.tile(np.arange(1, n + 1), m),
-            "gap_eV": self.gaps_eV.ravel(),
-            "jph_mA_cm2": 0.1 * s.jph.ravel(),
-            "jsc_mA_cm2": 0.1 * s.jph.ravel(),
-            "voc_V": s.voc_junction.ravel(),
-            "v_op_V": s.op.v_junction.ravel(),
-            "j_op_mA_cm2": 0.1 * s.op.j_junction.ravel(),
-            "p_op_W_m2": s.op.p_junction.ravel(),
-            "power_share_pct": 100 * self.power_share.ravel(),
-        })
+        return pd.DataFrame(
+            {
+                "stack": np.repeat(np.arange(m), n),
+                "junction": np.tile(np.arange(1, n + 1), m),
+                "gap_eV": self.gaps_eV.ravel(),
+                "jph_mA_cm2": 0.1 * s.jph.ravel(),
+                "jsc_mA_cm2": 0.1 * s.jph.ravel(),
+                "voc_V": s.voc_junction.ravel(),
+                "v_op_V": s.op.v_junction.ravel(),
+                "j_op_mA_cm2": 0.1 * s.op.j_junction.ravel(),
+                "p_op_W_m2": s.op.p_junction.ravel(),
+                "power_share_pct": 100 * self.power_share.ravel(),
+            }
+        )
 
     def stack(self, i: int = 0) -> dict:
         """JSON-ready description of stack ``i``.

@@ -174,7 +174,8 @@ def test_csv_missing_file(tmp_path):
 def test_csv_round_trip_reproduces_standard(tmp_path, am15g):
     lines = ["# exported for a test", "wavelength_nm,irradiance_W_m2_nm"]
     lines += [
-        f"{float(w)!r},{float(v)!r}" for w, v in zip(am15g.wavelength_nm, am15g.irradiance_W_m2_nm, strict=True)
+        f"{float(w)!r},{float(v)!r}"
+        for w, v in zip(am15g.wavelength_nm, am15g.irradiance_W_m2_nm, strict=True)
     ]
     spec = gm.read_spectrum_csv(_write(tmp_path, "\n".join(lines)))
     assert spec.total_irradiance_W_m2 == pytest.approx(am15g.total_irradiance_W_m2, rel=1e-14)

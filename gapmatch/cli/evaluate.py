@@ -23,20 +23,38 @@ def register(sub) -> None:
         description="Detailed-balance efficiency, maximum power point and per-junction "
         "operating point of one stack of junctions. Theoretical limits, not ratings.",
     )
-    p.add_argument("--gaps", type=float, nargs="+", required=True, metavar="EV",
-                   help="band gaps [eV], top junction first, 1 to 6 values in 0.1-5.0, "
-                   "strictly decreasing")
-    p.add_argument("--connection", default="series", choices=CONNECTIONS,
-                   help="series (two-terminal, current matched), independent (four-/multi-"
-                   "terminal) or voltage-matched strings (default series)")
-    p.add_argument("--cells-per-string", type=int, nargs="+", metavar="N",
-                   help="voltage-matched only: cells per string for each junction, top first "
-                   "(default: the best ratio with strings of up to 6 cells for 2-3 junctions, 5/4/3 for 4/5/6)")
+    p.add_argument(
+        "--gaps",
+        type=float,
+        nargs="+",
+        required=True,
+        metavar="EV",
+        help="band gaps [eV], top junction first, 1 to 6 values in 0.1-5.0, strictly decreasing",
+    )
+    p.add_argument(
+        "--connection",
+        default="series",
+        choices=CONNECTIONS,
+        help="series (two-terminal, current matched), independent (four-/multi-"
+        "terminal) or voltage-matched strings (default series)",
+    )
+    p.add_argument(
+        "--cells-per-string",
+        type=int,
+        nargs="+",
+        metavar="N",
+        help="voltage-matched only: cells per string for each junction, top first "
+        "(default: the best ratio with strings of up to 6 cells for 2-3 junctions, "
+        "5/4/3 for 4/5/6)",
+    )
     add_condition_options(p)
     add_physics_options(p)
-    p.add_argument("--json", action="store_true",
-                   help="print one JSON object (efficiency as a fraction 0-1, unit-suffixed "
-                   "keys) instead of a table")
+    p.add_argument(
+        "--json",
+        action="store_true",
+        help="print one JSON object (efficiency as a fraction 0-1, unit-suffixed "
+        "keys) instead of a table",
+    )
     p.set_defaults(func=run)
 
 
@@ -47,49 +65,121 @@ def add_physics_options(p: argparse.ArgumentParser) -> None:
     junction, top first."""
     g = p.add_argument_group(
         "beyond the ideal limit (all optional; one value for every junction or one per "
-        "junction, top first)")
-    g.add_argument("--absorber", nargs="+", choices=ABSORBER_MODELS, metavar="MODEL",
-                   help="absorptance model: step (default: ideal step at the gap), direct "
-                   "(square-root edge + Urbach tail), indirect (quadratic edge + Urbach tail) "
-                   "or table (absorption coefficient from --alpha-file)")
-    g.add_argument("--thickness", type=float, nargs="+", metavar="NM",
-                   help="absorber thickness [nm], 1 to 1e8; needed for non-step absorbers "
-                   "(any number for step junctions, it is ignored)")
-    g.add_argument("--alpha0", type=float, nargs="+", metavar="PER_CM",
-                   help="absorption coefficient 1 eV above the gap [cm^-1], 1 to 1e7 "
-                   "(default 5e4 direct, 4.5e3 indirect)")
-    g.add_argument("--urbach-energy", type=float, nargs="+", metavar="MEV",
-                   help="Urbach energy of the sub-gap tail [meV], 0 to 100 (default 0: none)")
-    g.add_argument("--alpha-file", nargs="+", metavar="PATH",
-                   help="CSV of wavelength [nm], absorption coefficient [cm^-1] for the "
-                   "'table' junctions, in order (one file for all of them, or one each)")
-    g.add_argument("--light-trapping", nargs="+", choices=LIGHT_TRAPPING, metavar="MODE",
-                   help="single pass (default), double pass (ideal rear mirror) or "
-                   "lambertian (4 n^2 path enhancement)")
-    g.add_argument("--refractive-index", type=float, nargs="+", metavar="N",
-                   help="absorber refractive index, 1 to 6 (default 3.5): Lambertian trapping "
-                   "and downward emission")
-    g.add_argument("--coupling-fraction", type=float, nargs="+", metavar="C",
-                   help="model downward emission (n^2 x front): fraction absorbed by the "
-                   "junction below, 0 to 1 (0: lost), one value or one per interface "
-                   "(N-1); series or independent only")
-    g.add_argument("--emission-half-angle", type=float, nargs="+", metavar="DEG",
-                   help="front emission cone half-angle [deg], from the sun's half-angle "
-                   "(0.2666 deg at one sun, times sqrt(concentration)) to 90 (default 90)")
-    g.add_argument("--varshni", type=float, nargs=2, action="append", metavar=("ALPHA", "BETA"),
-                   help="Varshni gap temperature model: alpha [eV K^-1] 0-0.01, beta [K] "
-                   "(0, 5000]; give once for all junctions or once per junction (gaps hold "
-                   "at --gap-reference-temperature)")
-    g.add_argument("--dEg-dT", dest="dEg_dT", type=float, nargs="+", metavar="EV_K",
-                   help="linear gap temperature coefficient [eV K^-1], -0.01 to 0.01")
-    g.add_argument("--gap-reference-temperature", type=float, default=300.0, metavar="K",
-                   help="temperature [K] at which --gaps hold when a gap temperature model "
-                   "is given, 0-1000 (default 300)")
-    g.add_argument("--collection-efficiency", type=float, nargs="+", metavar="ETA",
-                   help="fraction of absorbed photons collected, (0, 1] (default 1)")
-    g.add_argument("--series-resistance", type=float, nargs="+", metavar="OHM_CM2",
-                   help="series resistance [ohm cm^2], 0-100: one value for the stack (series) "
-                   "or per sub-cell (independent) (default 0)")
+        "junction, top first)"
+    )
+    g.add_argument(
+        "--absorber",
+        nargs="+",
+        choices=ABSORBER_MODELS,
+        metavar="MODEL",
+        help="absorptance model: step (default: ideal step at the gap), direct "
+        "(square-root edge + Urbach tail), indirect (quadratic edge + Urbach tail) "
+        "or table (absorption coefficient from --alpha-file)",
+    )
+    g.add_argument(
+        "--thickness",
+        type=float,
+        nargs="+",
+        metavar="NM",
+        help="absorber thickness [nm], 1 to 1e8; needed for non-step absorbers "
+        "(any number for step junctions, it is ignored)",
+    )
+    g.add_argument(
+        "--alpha0",
+        type=float,
+        nargs="+",
+        metavar="PER_CM",
+        help="absorption coefficient 1 eV above the gap [cm^-1], 1 to 1e7 "
+        "(default 5e4 direct, 4.5e3 indirect)",
+    )
+    g.add_argument(
+        "--urbach-energy",
+        type=float,
+        nargs="+",
+        metavar="MEV",
+        help="Urbach energy of the sub-gap tail [meV], 0 to 100 (default 0: none)",
+    )
+    g.add_argument(
+        "--alpha-file",
+        nargs="+",
+        metavar="PATH",
+        help="CSV of wavelength [nm], absorption coefficient [cm^-1] for the "
+        "'table' junctions, in order (one file for all of them, or one each)",
+    )
+    g.add_argument(
+        "--light-trapping",
+        nargs="+",
+        choices=LIGHT_TRAPPING,
+        metavar="MODE",
+        help="single pass (default), double pass (ideal rear mirror) or "
+        "lambertian (4 n^2 path enhancement)",
+    )
+    g.add_argument(
+        "--refractive-index",
+        type=float,
+        nargs="+",
+        metavar="N",
+        help="absorber refractive index, 1 to 6 (default 3.5): Lambertian trapping "
+        "and downward emission",
+    )
+    g.add_argument(
+        "--coupling-fraction",
+        type=float,
+        nargs="+",
+        metavar="C",
+        help="model downward emission (n^2 x front): fraction absorbed by the "
+        "junction below, 0 to 1 (0: lost), one value or one per interface "
+        "(N-1); series or independent only",
+    )
+    g.add_argument(
+        "--emission-half-angle",
+        type=float,
+        nargs="+",
+        metavar="DEG",
+        help="front emission cone half-angle [deg], from the sun's half-angle "
+        "(0.2666 deg at one sun, times sqrt(concentration)) to 90 (default 90)",
+    )
+    g.add_argument(
+        "--varshni",
+        type=float,
+        nargs=2,
+        action="append",
+        metavar=("ALPHA", "BETA"),
+        help="Varshni gap temperature model: alpha [eV K^-1] 0-0.01, beta [K] "
+        "(0, 5000]; give once for all junctions or once per junction (gaps hold "
+        "at --gap-reference-temperature)",
+    )
+    g.add_argument(
+        "--dEg-dT",
+        dest="dEg_dT",
+        type=float,
+        nargs="+",
+        metavar="EV_K",
+        help="linear gap temperature coefficient [eV K^-1], -0.01 to 0.01",
+    )
+    g.add_argument(
+        "--gap-reference-temperature",
+        type=float,
+        default=300.0,
+        metavar="K",
+        help="temperature [K] at which --gaps hold when a gap temperature model "
+        "is given, 0-1000 (default 300)",
+    )
+    g.add_argument(
+        "--collection-efficiency",
+        type=float,
+        nargs="+",
+        metavar="ETA",
+        help="fraction of absorbed photons collected, (0, 1] (default 1)",
+    )
+    g.add_argument(
+        "--series-resistance",
+        type=float,
+        nargs="+",
+        metavar="OHM_CM2",
+        help="series resistance [ohm cm^2], 0-100: one value for the stack (series) "
+        "or per sub-cell (independent) (default 0)",
+    )
 
 
 def _one(x):
@@ -102,10 +192,15 @@ def physics_kwargs(args: argparse.Namespace, n: int) -> dict:
     """Keyword arguments of :func:`gapmatch.evaluate` from :func:`add_physics_options`."""
     kw: dict = {}
     pairs = {
-        "absorber": "absorber", "thickness": "thickness_nm", "alpha0": "alpha0_per_cm",
-        "urbach_energy": "urbach_energy_meV", "light_trapping": "light_trapping",
-        "refractive_index": "refractive_index", "coupling_fraction": "coupling_fraction",
-        "emission_half_angle": "emission_half_angle_deg", "dEg_dT": "dEg_dT_eV_K",
+        "absorber": "absorber",
+        "thickness": "thickness_nm",
+        "alpha0": "alpha0_per_cm",
+        "urbach_energy": "urbach_energy_meV",
+        "light_trapping": "light_trapping",
+        "refractive_index": "refractive_index",
+        "coupling_fraction": "coupling_fraction",
+        "emission_half_angle": "emission_half_angle_deg",
+        "dEg_dT": "dEg_dT_eV_K",
         "collection_efficiency": "collection_efficiency",
         "series_resistance": "series_resistance_ohm_cm2",
     }
@@ -128,8 +223,11 @@ def physics_kwargs(args: argparse.Namespace, n: int) -> dict:
         if len(files) != len(tables):
             from ..errors import InputError
 
-            raise InputError("--alpha-file", f"needs one file, or one per 'table' junction "
-                             f"({len(tables)})", files)
+            raise InputError(
+                "--alpha-file",
+                f"needs one file, or one per 'table' junction ({len(tables)})",
+                files,
+            )
         per = [None] * n
         for i, f in zip(tables, files, strict=True):
             per[i] = f
@@ -138,9 +236,14 @@ def physics_kwargs(args: argparse.Namespace, n: int) -> dict:
 
 
 def run(args: argparse.Namespace) -> int:
-    res = evaluate(args.gaps, args.connection, cells_per_string=args.cells_per_string,
-                   losses=True, **condition_kwargs(args),
-                   **physics_kwargs(args, len(args.gaps)))
+    res = evaluate(
+        args.gaps,
+        args.connection,
+        cells_per_string=args.cells_per_string,
+        losses=True,
+        **condition_kwargs(args),
+        **physics_kwargs(args, len(args.gaps)),
+    )
     d = res.stack(0)
     if args.json:
         print(json.dumps(d, indent=2))
@@ -179,15 +282,20 @@ def format_table(d: dict) -> str:
     if "losses_W_m2" in d:
         lines.extend(["", *format_losses(d["losses_W_m2"])])
     if d["connection"] == "independent":
-        lines.append("independent connection: no common terminals, so stack V_oc, J_sc, "
-                     "V_mpp, J_mpp are not defined (-); FF = P_mpp / sum(V_oc J_sc).")
+        lines.append(
+            "independent connection: no common terminals, so stack V_oc, J_sc, "
+            "V_mpp, J_mpp are not defined (-); FF = P_mpp / sum(V_oc J_sc)."
+        )
     if "physics" in d["conditions"]:
-        lines.append("Detailed-balance model with the non-ideal options given: a theoretical "
-                     "projection, not a rating; device ratings need accredited measurement "
-                     "(IEC 60904 series).")
+        lines.append(
+            "Detailed-balance model with the non-ideal options given: a theoretical "
+            "projection, not a rating; device ratings need accredited measurement "
+            "(IEC 60904 series)."
+        )
     else:
-        lines.append("Detailed-balance limit under ideal assumptions: a theoretical ceiling, "
-                     "not a rating.")
+        lines.append(
+            "Detailed-balance limit under ideal assumptions: a theoretical ceiling, not a rating."
+        )
     return "\n".join(lines)
 
 
@@ -227,6 +335,8 @@ def format_losses(lw: dict) -> list[str]:
         for j in lw["junctions"]:
             row += f" {j[key]:13.2f}" if key in j else f" {'-':>13}"
         lines.append(row)
-    lines.append(f"{'incident':<30} {inc:10.2f} {100.0:7.2f}   (terms add up to within "
-                 f"{lw['closure_rel']:.1e} relative)")
+    lines.append(
+        f"{'incident':<30} {inc:10.2f} {100.0:7.2f}   (terms add up to within "
+        f"{lw['closure_rel']:.1e} relative)"
+    )
     return lines

@@ -268,8 +268,9 @@ def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
     return OperatingPoint(p, v, j, voc, jsc, vk, jk, ratio=r.astype(int))
 
 
-def best_ratio_voltage_matched(d, max_cells: int | None = None,
-                               max_rows: int = 2**19) -> OperatingPoint:
+def best_ratio_voltage_matched(
+    d, max_cells: int | None = None, max_rows: int = 2**19
+) -> OperatingPoint:
     """Voltage matching with, per stack, the best string lengths up to ``max_cells``.
 
     Parameters
@@ -298,8 +299,9 @@ def best_ratio_voltage_matched(d, max_cells: int | None = None,
     for start in range(0, m, step):
         rows = np.arange(start, min(m, start + step))
         rep = np.repeat(rows, k)
-        op = solve_voltage_matched(d.take(rep), np.tile(cand, (rows.size, 1)),
-                                   single=(single[0][rep], single[1][rep]))
+        op = solve_voltage_matched(
+            d.take(rep), np.tile(cand, (rows.size, 1)), single=(single[0][rep], single[1][rep])
+        )
         pk = op.p_mpp.reshape(rows.size, k)
         best_k[rows] = np.argmax(pk, axis=1)
         best_p[rows] = pk[np.arange(rows.size), best_k[rows]]

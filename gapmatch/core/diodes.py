@@ -94,8 +94,9 @@ class BoltzmannDiodes:
     model = "boltzmann"
 
     def __init__(self, jph: np.ndarray, j0: np.ndarray, vt: np.ndarray) -> None:
-        self.jph, self.j0, self.vt = (np.asfortranarray(a, dtype=float)
-                                      for a in np.broadcast_arrays(jph, j0, vt))
+        self.jph, self.j0, self.vt = (
+            np.asfortranarray(a, dtype=float) for a in np.broadcast_arrays(jph, j0, vt)
+        )
         self._cols = None
         self._voc = None
         self._lnj0 = None
@@ -109,9 +110,11 @@ class BoltzmannDiodes:
         # junctions and works on long contiguous arrays of stacks
         if self._cols is None:
             self._cols = [
-                (np.ascontiguousarray(self.jph[:, i] + self.j0[:, i]),
-                 np.ascontiguousarray(np.log(self.j0[:, i])),
-                 np.ascontiguousarray(self.vt[:, i]))
+                (
+                    np.ascontiguousarray(self.jph[:, i] + self.j0[:, i]),
+                    np.ascontiguousarray(np.log(self.j0[:, i])),
+                    np.ascontiguousarray(self.vt[:, i]),
+                )
                 for i in range(self.jph.shape[1])
             ]
         return self._cols
@@ -236,8 +239,10 @@ class BoseEinsteinDiodes:
     def __init__(self, jph, gap_J, temperature_K, ere, emission_factor=1.0) -> None:  # noqa: N803
         (self.jph, self.gap_J, self.temperature_K, self.ere, self.emission_factor) = (
             np.broadcast_arrays(
-                np.asarray(jph, float), np.asarray(gap_J, float),
-                np.asarray(temperature_K, float), np.asarray(ere, float),
+                np.asarray(jph, float),
+                np.asarray(gap_J, float),
+                np.asarray(temperature_K, float),
+                np.asarray(ere, float),
                 np.asarray(emission_factor, float),
             )
         )
@@ -249,8 +254,13 @@ class BoseEinsteinDiodes:
 
     def take(self, sel) -> BoseEinsteinDiodes:
         """Subset of junctions (any numpy index applied to every array)."""
-        return BoseEinsteinDiodes(self.jph[sel], self.gap_J[sel], self.temperature_K[sel],
-                                  self.ere[sel], self.emission_factor[sel])
+        return BoseEinsteinDiodes(
+            self.jph[sel],
+            self.gap_J[sel],
+            self.temperature_K[sel],
+            self.ere[sel],
+            self.emission_factor[sel],
+        )
 
     def _d(self, v):
         return self.x - v / self.vt

@@ -36,8 +36,13 @@ from .connections import (
 from .diodes import make_diodes
 from .spectra import Spectrum
 
-__all__ = ["step_photocurrents", "StackSolution", "solve_stacks", "DeviceModel",
-           "solve_stacks_nonideal"]
+__all__ = [
+    "step_photocurrents",
+    "StackSolution",
+    "solve_stacks",
+    "DeviceModel",
+    "solve_stacks_nonideal",
+]
 
 
 def step_photocurrents(gaps_J: np.ndarray, spectrum: Spectrum) -> np.ndarray:  # noqa: N803
@@ -147,8 +152,14 @@ def solve_stacks(
     StackSolution
     """
     gaps = np.atleast_2d(np.asarray(gaps_J, dtype=float))
-    kw = dict(temperature_K=temperature_K, ere=ere, dark_model=dark_model,
-              emission_factor=emission_factor, vm_ratio=vm_ratio, vm_max_cells=vm_max_cells)
+    kw = dict(
+        temperature_K=temperature_K,
+        ere=ere,
+        dark_model=dark_model,
+        emission_factor=emission_factor,
+        vm_ratio=vm_ratio,
+        vm_max_cells=vm_max_cells,
+    )
     m = gaps.shape[0]
     threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
     if m <= chunk or threads == 1 and m <= 4 * chunk:
@@ -180,16 +191,35 @@ def _concat(parts: list[StackSolution]) -> StackSolution:
     cat = np.concatenate
     ops = [p.op for p in parts]
     ratio = None if ops[0].ratio is None else cat([o.ratio for o in ops])
-    op = OperatingPoint(*(cat([getattr(o, f) for o in ops]) for f in
-                          ("p_mpp", "v_mpp", "j_mpp", "voc", "jsc", "v_junction", "j_junction")),
-                        ratio=ratio)
-    return StackSolution(cat([p.gaps_J for p in parts]), cat([p.jph for p in parts]),
-                         cat([p.voc_junction for p in parts]), op, parts[0].incident_W_m2,
-                         cat([p.absorbed_W_m2 for p in parts]))
+    op = OperatingPoint(
+        *(
+            cat([getattr(o, f) for o in ops])
+            for f in ("p_mpp", "v_mpp", "j_mpp", "voc", "jsc", "v_junction", "j_junction")
+        ),
+        ratio=ratio,
+    )
+    return StackSolution(
+        cat([p.gaps_J for p in parts]),
+        cat([p.jph for p in parts]),
+        cat([p.voc_junction for p in parts]),
+        op,
+        parts[0].incident_W_m2,
+        cat([p.absorbed_W_m2 for p in parts]),
+    )
 
 
-def _solve(gaps, spectrum, connection, *, temperature_K, ere, dark_model,  # noqa: N803
-           emission_factor, vm_ratio, vm_max_cells) -> StackSolution:
+def _solve(
+    gaps,
+    spectrum,
+    connection,
+    *,
+    temperature_K,
+    ere,
+    dark_model,  # noqa: N803
+    emission_factor,
+    vm_ratio,
+    vm_max_cells,
+) -> StackSolution:
     gaps = np.asfortranarray(gaps)
     jph = step_photocurrents(gaps, spectrum)
     diodes = make_diodes(dark_model, jph, gaps, temperature_K, ere, emission_factor)
@@ -331,12 +361,21 @@ def solve_stacks_nonideal(
         chunk = m if device.all_step() else 256
     if given is not None:
         chunk = m
+
     def part(s0):
         sl = slice(s0, min(m, s0 + chunk))
-        return _solve_nonideal(g[sl], spectrum, connection, device,
-                               {k: v[sl] for k, v in full.items()}, dark_model,
-                               vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1
-                               else np.asarray(vm_ratio)[sl], vm_max_cells, losses, given)
+        return _solve_nonideal(
+            g[sl],
+            spectrum,
+            connection,
+            device,
+            {k: v[sl] for k, v in full.items()},
+            dark_model,
+            vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1 else np.asarray(vm_ratio)[sl],
+            vm_max_cells,
+            losses,
+            given,
+        )
 
     starts = list(range(0, m, chunk))
     threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
@@ -356,8 +395,11 @@ def solve_stacks_nonideal(
         sol.losses = LossBreakdown(
             {k: np.concatenate([x.junction[k] for x in lb]) for k in lb[0].junction},
             {k: np.concatenate([x.stack[k] for x in lb]) for k in lb[0].stack},
-            lb[0].incident_W_m2, np.concatenate([x.output_W_m2 for x in lb]),
-            lb[0].blackbody, np.concatenate([x.junction_output_W_m2 for x in lb]))
+            lb[0].incident_W_m2,
+            np.concatenate([x.output_W_m2 for x in lb]),
+            lb[0].blackbody,
+            np.concatenate([x.junction_output_W_m2 for x in lb]),
+        )
     return sol
 
 
@@ -369,8 +411,18 @@ def _per_junction_array(value, shape, pad=0.0):
     return np.broadcast_to(a, shape)
 
 
-def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ratio,
-                    vm_max_cells, want_losses, given=None) -> StackSolution:
+def _solve_nonideal(
+    g_ref,
+    spectrum,
+    connection,
+    device,
+    arrs,
+    dark_model,
+    vm_ratio,
+    vm_max_cells,
+    want_losses,
+    given=None,
+) -> StackSolution:
     from .absorption import stack_optics, step_optics
     from .connections import solve_independent_resistive, solve_series_resistive
     from .coupling import (
@@ -392,8 +444,15 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
     else:
         absorbers = tuple(device.absorbers) + (None,) * (n - len(device.absorbers))
         trapping = tuple(device.trapping) or ("single",) * n
-        optics = stack_optics(g, t, spectrum, absorbers, arrs["thickness"], trapping,
-                              _per_junction_array(device.refractive_index, (n,)))
+        optics = stack_optics(
+            g,
+            t,
+            spectrum,
+            absorbers,
+            arrs["thickness"],
+            trapping,
+            _per_junction_array(device.refractive_index, (n,)),
+        )
     eta = _per_junction_array(device.collection, shape)
     ff = _per_junction_array(device.emission_factor, shape)
     nidx = _per_junction_array(device.refractive_index, shape)
@@ -414,8 +473,9 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
     j0 = (ff + n2r) * j0_unit / ere
     bose = dark_model == "bose-einstein"
     if bose and (coupled or not device.all_step()):
-        raise ValueError("the Bose-Einstein dark current needs step absorbers and no "
-                         "luminescent coupling")
+        raise ValueError(
+            "the Bose-Einstein dark current needs step absorbers and no luminescent coupling"
+        )
     if bose:
         diodes = BoseEinsteinDiodes(jph, g, t, ere, eta * ff)
     else:
@@ -452,8 +512,9 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
             voc_j = diodes.voc()
     elif connection == "voltage-matched":
         if coupled or np.any(r > 0):
-            raise ValueError("luminescent coupling and series resistance need series or "
-                             "independent connection")
+            raise ValueError(
+                "luminescent coupling and series resistance need series or independent connection"
+            )
         if vm_ratio is not None:
             op = solve_voltage_matched(diodes, np.asarray(vm_ratio))
         else:
@@ -461,9 +522,15 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
         voc_j = diodes.voc()
     else:
         raise ValueError(f"unknown connection {connection!r}")
-    sol = StackSolution(g, jph, voc_j, op, spectrum.total_irradiance_W_m2,
-                        optics.p_abs.sum(axis=1),
-                        extras={"gaps_ref_J": g_ref, "jph_total": np.array(jeff_act, float)})
+    sol = StackSolution(
+        g,
+        jph,
+        voc_j,
+        op,
+        spectrum.total_irradiance_W_m2,
+        optics.p_abs.sum(axis=1),
+        extras={"gaps_ref_J": g_ref, "jph_total": np.array(jeff_act, float)},
+    )
     if want_losses:
         from .losses import compute_losses
 
@@ -482,11 +549,26 @@ def _solve_nonideal(g_ref, spectrum, connection, device, arrs, dark_model, vm_ra
             rvoc_rad = vt * np.log1p(rjeff / (j0 * ere))
         bb = spectrum.is_blackbody
         sol.losses = compute_losses(
-            gaps_J=g, temperature_K=t, incident_W_m2=spectrum.total_irradiance_W_m2,
-            optics=optics, ere=ere, collection=eta, front_factor=ff, n2r=n2r,
-            coupling_fraction=c, ref_j=rj, ref_v=rv, ref_jeff=rjeff, ref_voc=rvoc,
-            ref_voc_rad=rvoc_rad, act_j=op.j_junction, act_v=op.v_junction,
-            junction_r=r_junction, p_out=op.p_mpp, stack_r=r_stack, stack_j=op.j_mpp,
+            gaps_J=g,
+            temperature_K=t,
+            incident_W_m2=spectrum.total_irradiance_W_m2,
+            optics=optics,
+            ere=ere,
+            collection=eta,
+            front_factor=ff,
+            n2r=n2r,
+            coupling_fraction=c,
+            ref_j=rj,
+            ref_v=rv,
+            ref_jeff=rjeff,
+            ref_voc=rvoc,
+            ref_voc_rad=rvoc_rad,
+            act_j=op.j_junction,
+            act_v=op.v_junction,
+            junction_r=r_junction,
+            p_out=op.p_mpp,
+            stack_r=r_stack,
+            stack_j=op.j_mpp,
             sun_K=getattr(spectrum, "sun_temperature_K", None) if bb else None,
             sun_dilution=getattr(spectrum, "dilution", None) if bb else None,
         )

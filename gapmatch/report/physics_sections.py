@@ -40,8 +40,9 @@ register_table(
             "connection": Choice(CONNECTIONS, default="series"),
             "absorber": Choice(("direct", "indirect"), default="direct"),
             "light_trapping": Choice(("single", "double", "lambertian"), default="single"),
-            "range_nm": List(Num(1.0, 1e8, "nm"), min_len=2, max_len=2,
-                             default=lambda: [30.0, 3000.0]),
+            "range_nm": List(
+                Num(1.0, 1e8, "nm"), min_len=2, max_len=2, default=lambda: [30.0, 3000.0]
+            ),
             "points": Int(5, 200, default=40),
         },
         default=dict,
@@ -66,15 +67,18 @@ def _loss_results(ctx):
 def losses_section(ctx) -> SectionOutput:
     """Stacked loss breakdown of every stack of interest, per connection."""
     results = _loss_results(ctx)
-    blocks = [para(
-        "Every watt of incident sunlight, accounted for: photons below the lowest gap, "
-        "thermalisation of hot carriers, emission and non-radiative recombination at the "
-        "operating point, the voltage drop from open circuit to maximum power, and (series "
-        "connection) the power lost to current mismatch, i.e. what an independent "
-        "connection of the same junctions would add. The terms add up to the incident "
-        "power. Method: Hirst & Ekins-Daukes 2011 (Prog. Photovolt. 19, 286); under a "
-        "measured spectrum the Carnot and Boltzmann terms are undefined and the voltage "
-        "loss is split into radiative-limit, non-radiative and maximum-power parts.")]
+    blocks = [
+        para(
+            "Every watt of incident sunlight, accounted for: photons below the lowest gap, "
+            "thermalisation of hot carriers, emission and non-radiative recombination at the "
+            "operating point, the voltage drop from open circuit to maximum power, and (series "
+            "connection) the power lost to current mismatch, i.e. what an independent "
+            "connection of the same junctions would add. The terms add up to the incident "
+            "power. Method: Hirst & Ekins-Daukes 2011 (Prog. Photovolt. 19, 286); under a "
+            "measured spectrum the Carnot and Boltzmann terms are undefined and the voltage "
+            "loss is split into radiative-limit, non-radiative and maximum-power parts."
+        )
+    ]
     data = {}
     summary = {}
     names = [s.name for s in ctx.study.stacks]
@@ -91,11 +95,19 @@ def losses_section(ctx) -> SectionOutput:
         summary[conn] = {"max_closure_error_relative": closure}
         # one row per loss term, one column per stack (stays narrow for any term count)
         cols = [c for c in frame.columns if c.endswith("_W_m2")]
-        rows = [[c.removesuffix("_W_m2").replace("_", " ")]
-                + [f"{frame.loc[i, c]:.1f}" for i in range(len(names))] for c in cols]
-        blocks.append(table(["term [W m^-2]", *names], rows,
-                            caption=f"{conn} connection: where the incident power goes "
-                            "[W m^-2]", numeric=[False] + [True] * len(names)))
+        rows = [
+            [c.removesuffix("_W_m2").replace("_", " ")]
+            + [f"{frame.loc[i, c]:.1f}" for i in range(len(names))]
+            for c in cols
+        ]
+        blocks.append(
+            table(
+                ["term [W m^-2]", *names],
+                rows,
+                caption=f"{conn} connection: where the incident power goes [W m^-2]",
+                numeric=[False] + [True] * len(names),
+            )
+        )
     return SectionOutput(blocks=blocks, data=data, summary=summary)
 
 
@@ -108,34 +120,43 @@ def thickness_section(ctx) -> SectionOutput:
         raise InputError("thickness.stack", "the study has no stacks of interest to thin")
     name = cfg.get("stack") or next(iter(stacks))
     if name not in stacks:
-        raise InputError("thickness.stack", f"must name a stack of interest ({', '.join(stacks)})",
-                         name)
+        raise InputError(
+            "thickness.stack", f"must name a stack of interest ({', '.join(stacks)})", name
+        )
     gaps = list(stacks[name].gaps_eV)
     j = int(cfg.get("junction", 1))
     if j > len(gaps):
         raise InputError("thickness.junction", f"must be 1 to {len(gaps)} for stack {name!r}", j)
     lo, hi = cfg.get("range_nm", [30.0, 3000.0])
     if not lo < hi:
-        raise InputError("thickness.range_nm", "must be [low, high] with low < high [nm]",
-                         [lo, hi])
+        raise InputError("thickness.range_nm", "must be [low, high] with low < high [nm]", [lo, hi])
     th = np.geomspace(lo, hi, int(cfg.get("points", 40)))
     conn = cfg.get("connection", "series")
     kw = ctx._cell_kwargs()
     kw.pop("dark_current", None)  # finite absorbers use the Boltzmann form
     absorbers = ["step"] * len(gaps)
     absorbers[j - 1] = cfg.get("absorber", "direct")
-    fig = thickness_figure(gaps, th, conn, junction=j - 1, spectrum=ctx.spectrum,
-                           absorber=absorbers, light_trapping=cfg.get("light_trapping", "single"),
-                           **kw)
+    fig = thickness_figure(
+        gaps,
+        th,
+        conn,
+        junction=j - 1,
+        spectrum=ctx.spectrum,
+        absorber=absorbers,
+        light_trapping=cfg.get("light_trapping", "single"),
+        **kw,
+    )
     fig.update_layout(title=f"{name}: efficiency versus thickness of junction {j}")
     return SectionOutput(
         blocks=[
-            para(f"Stack {name} ({' / '.join(f'{g:.2f}' for g in gaps)} eV), {conn} "
-                 f"connection: junction {j} is given a finite {absorbers[j - 1]}-gap "
-                 "absorber whose thickness varies; light it does not absorb passes to the "
-                 "junctions below, and its emission shrinks with its absorptance "
-                 "(reciprocity). Thinning a top cell whose gap is too low is how a series "
-                 "stack is current-matched."),
+            para(
+                f"Stack {name} ({' / '.join(f'{g:.2f}' for g in gaps)} eV), {conn} "
+                f"connection: junction {j} is given a finite {absorbers[j - 1]}-gap "
+                "absorber whose thickness varies; light it does not absorb passes to the "
+                "junctions below, and its emission shrinks with its absorptance "
+                "(reciprocity). Thinning a top cell whose gap is too low is how a series "
+                "stack is current-matched."
+            ),
             fig,
         ],
         summary={"stack": name, "junction": j, "range_nm": [float(lo), float(hi)]},
