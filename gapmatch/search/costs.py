@@ -22,8 +22,9 @@ ACTIVE_EV = 1e-3
 ACTIVE_RATIO = 1e-4
 
 
-def quick_optimum(problem: SearchProblem, *, seed: int = 0, samples: int | None = None,
-                  starts: int = 8) -> tuple[np.ndarray, float]:
+def quick_optimum(
+    problem: SearchProblem, *, seed: int = 0, samples: int | None = None, starts: int = 8
+) -> tuple[np.ndarray, float]:
     """Global optimum without optuna or storage: Sobol batch, then polish of the best
     distinct basins.
 
@@ -48,15 +49,25 @@ def _rebuild(problem: SearchProblem, **changes) -> SearchProblem:
     bounds = [tuple(map(float, b)) for b in problem.bounds_eV]
     for k in np.flatnonzero(problem.fixed):
         bounds[k] = DEFAULT_WINDOW_EV
-    kw = dict(bounds_eV=bounds, fixed_eV=fixed or None, min_spacing_eV=problem.min_spacing_eV,
-              min_mismatch_ratio=problem.min_mismatch_ratio, robustness_eV=None,
-              objective=problem.objective)
+    kw = dict(
+        bounds_eV=bounds,
+        fixed_eV=fixed or None,
+        min_spacing_eV=problem.min_spacing_eV,
+        min_mismatch_ratio=problem.min_mismatch_ratio,
+        robustness_eV=None,
+        objective=problem.objective,
+    )
     kw.update(changes)
     return make_problem(problem.n_junctions, problem.connection, **kw, **problem.conditions)
 
 
-def constraint_costs(problem: SearchProblem, best_gaps_eV, best_value: float, *,  # noqa: N803
-                     seed: int = 0) -> list[dict]:
+def constraint_costs(
+    problem: SearchProblem,
+    best_gaps_eV,
+    best_value: float,
+    *,  # noqa: N803
+    seed: int = 0,
+) -> list[dict]:
     """The efficiency with and without each constraint of a problem.
 
     Parameters
@@ -87,22 +98,35 @@ def constraint_costs(problem: SearchProblem, best_gaps_eV, best_value: float, *,
             vw = max(vw, best_value)  # relaxing can only help; guard the search's noise
         else:
             gw, vw = g, best_value
-        out.append({"constraint": label, "active": bool(active), "with_pct": s * best_value,
-                    "without_pct": s * vw, "cost_pct": s * (vw - best_value),
-                    "gaps_without_eV": [float(x) for x in gw]})
+        out.append(
+            {
+                "constraint": label,
+                "active": bool(active),
+                "with_pct": s * best_value,
+                "without_pct": s * vw,
+                "cost_pct": s * (vw - best_value),
+                "gaps_without_eV": [float(x) for x in gw],
+            }
+        )
 
     for k in np.flatnonzero(problem.fixed):
-        fixed = {j + 1: float(problem.bounds_eV[j, 0]) for j in np.flatnonzero(problem.fixed)
-                 if j != k}
-        add(f"junction {k + 1} fixed at {problem.bounds_eV[k, 0]:.3f} eV", True,
-            _rebuild(problem, fixed_eV=fixed or None))
+        fixed = {
+            j + 1: float(problem.bounds_eV[j, 0]) for j in np.flatnonzero(problem.fixed) if j != k
+        }
+        add(
+            f"junction {k + 1} fixed at {problem.bounds_eV[k, 0]:.3f} eV",
+            True,
+            _rebuild(problem, fixed_eV=fixed or None),
+        )
     free = problem.free
     lo, hi = problem.bounds_eV[free, 0], problem.bounds_eV[free, 1]
     default = np.all(np.isclose(lo, DEFAULT_WINDOW_EV[0])) and np.all(
-        np.isclose(hi, DEFAULT_WINDOW_EV[1]))
+        np.isclose(hi, DEFAULT_WINDOW_EV[1])
+    )
     if not default:
-        at_edge = np.any(np.abs(g[free] - lo) < ACTIVE_EV) or np.any(np.abs(g[free] - hi)
-                                                                     < ACTIVE_EV)
+        at_edge = np.any(np.abs(g[free] - lo) < ACTIVE_EV) or np.any(
+            np.abs(g[free] - hi) < ACTIVE_EV
+        )
         bounds = [tuple(map(float, b)) for b in problem.bounds_eV]
         for k in free:
             bounds[k] = DEFAULT_WINDOW_EV
@@ -111,11 +135,16 @@ def constraint_costs(problem: SearchProblem, best_gaps_eV, best_value: float, *,
         add("gap windows (vs 0.5-3.0 eV)", at_edge, _rebuild(problem, bounds_eV=bounds))
     if problem.min_spacing_eV > 0:
         sp = np.min(g[:-1] - g[1:])
-        add(f"minimum spacing {problem.min_spacing_eV:g} eV",
-            sp - problem.min_spacing_eV < ACTIVE_EV, _rebuild(problem, min_spacing_eV=0.0))
+        add(
+            f"minimum spacing {problem.min_spacing_eV:g} eV",
+            sp - problem.min_spacing_eV < ACTIVE_EV,
+            _rebuild(problem, min_spacing_eV=0.0),
+        )
     if problem.min_mismatch_ratio is not None:
         ev = problem.evaluate(g[None], robust=False)
-        add(f"mismatch ratio >= {problem.min_mismatch_ratio:g}",
+        add(
+            f"mismatch ratio >= {problem.min_mismatch_ratio:g}",
             ev.mismatch_ratio[0] - problem.min_mismatch_ratio < ACTIVE_RATIO,
-            _rebuild(problem, min_mismatch_ratio=None))
+            _rebuild(problem, min_mismatch_ratio=None),
+        )
     return out

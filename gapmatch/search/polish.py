@@ -124,9 +124,14 @@ def _nelder_mead(problem, x0, which, step=2e-3):
         count[0] += 1
         return -float(penalised(problem, x[None, :], which)[0])
 
-    res = minimize(fun, x0, method="Nelder-Mead",
-                   options=dict(initial_simplex=simplex, xatol=1e-6, fatol=1e-12,
-                                maxfev=400 * k, adaptive=k > 3))
+    res = minimize(
+        fun,
+        x0,
+        method="Nelder-Mead",
+        options=dict(
+            initial_simplex=simplex, xatol=1e-6, fatol=1e-12, maxfev=400 * k, adaptive=k > 3
+        ),
+    )
     return res.x, -res.fun, count[0]
 
 
@@ -140,8 +145,15 @@ def _certify(problem, x, fx, which, rng):
     return (fc[j] <= fx + IMPROVE_TOL), cand[j], float(fc[j]), len(cand)
 
 
-def polish(problem: SearchProblem, starts_eV: np.ndarray, *, which: int = 0,  # noqa: N803
-           seed: int = 0, nelder_mead: int | None = None, h0: float = 0.02) -> list[PolishResult]:
+def polish(
+    problem: SearchProblem,
+    starts_eV: np.ndarray,
+    *,
+    which: int = 0,  # noqa: N803
+    seed: int = 0,
+    nelder_mead: int | None = None,
+    h0: float = 0.02,
+) -> list[PolishResult]:
     """Polish starting points (free gaps [eV], ``(K, k)``) to local maxima.
 
     Parameters

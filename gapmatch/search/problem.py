@@ -95,8 +95,11 @@ class Objective(ABC):
     extra_variables: dict[str, tuple[float, float]] = {}
 
     @abstractmethod
-    def evaluate(self, gaps_eV: np.ndarray, extra: np.ndarray | None = None  # noqa: N803
-                 ) -> ObjectiveBatch:
+    def evaluate(
+        self,
+        gaps_eV: np.ndarray,
+        extra: np.ndarray | None = None,  # noqa: N803
+    ) -> ObjectiveBatch:
         """Evaluate ``(M, N)`` gaps [eV] (top first), unvalidated, in one batch."""
 
     def describe(self) -> dict:
@@ -130,25 +133,32 @@ class EfficiencyObjective(Objective):
         self.conditions = dict(conditions)
         c = self.conditions
         self.spectrum = get_spectrum(
-            c.get("spectrum", "AM1.5G"), spectrum_file=c.get("spectrum_file"),
+            c.get("spectrum", "AM1.5G"),
+            spectrum_file=c.get("spectrum_file"),
             sun_temperature_K=c.get("sun_temperature_K", 6000.0),
             irradiance_W_m2=c.get("irradiance_W_m2"),
-            concentration=c.get("concentration", 1.0))
+            concentration=c.get("concentration", 1.0),
+        )
         cps = c.get("cells_per_string")
-        self._kw = dict(temperature_K=np.asarray(c.get("temperature_K", 300.0), dtype=float),
-                        ere=np.asarray(c.get("ere", 1.0), dtype=float),
-                        dark_model=c.get("dark_current", "boltzmann"),
-                        vm_ratio=None if cps is None else np.asarray(cps, dtype=int))
+        self._kw = dict(
+            temperature_K=np.asarray(c.get("temperature_K", 300.0), dtype=float),
+            ere=np.asarray(c.get("ere", 1.0), dtype=float),
+            dark_model=c.get("dark_current", "boltzmann"),
+            vm_ratio=None if cps is None else np.asarray(cps, dtype=int),
+        )
 
     def evaluate(self, gaps_eV, extra=None) -> ObjectiveBatch:  # noqa: N803
-        sol = solve_stacks(np.asarray(gaps_eV, dtype=float) * EV, self.spectrum,
-                           self.connection, **self._kw)
+        sol = solve_stacks(
+            np.asarray(gaps_eV, dtype=float) * EV, self.spectrum, self.connection, **self._kw
+        )
         return ObjectiveBatch(sol.op.p_mpp / sol.incident_W_m2, sol.jph)
 
     def describe(self) -> dict:
         c = {k: (str(v) if isinstance(v, Path) else v) for k, v in self.conditions.items()}
-        c = {k: (np.asarray(v).tolist() if isinstance(v, np.ndarray | list | tuple) else v)
-             for k, v in c.items()}
+        c = {
+            k: (np.asarray(v).tolist() if isinstance(v, np.ndarray | list | tuple) else v)
+            for k, v in c.items()
+        }
         return {"name": self.name, "connection": self.connection, "conditions": c}
 
 
@@ -305,15 +315,14 @@ class SearchProblem:
         Returns an array of shape ``(1 + 2^k, N)``.
         """
         d = float(self.robustness_eV or 0.0)
-        offs = np.zeros((1 + 2 ** self.n_free, self.n_junctions))
+        offs = np.zeros((1 + 2**self.n_free, self.n_junctions))
         for i, signs in enumerate(itertools.product((-1.0, 1.0), repeat=self.n_free)):
             offs[1 + i, self.free] = d * np.asarray(signs)
         return offs
 
     def full_evaluation(self, gaps_eV) -> dict:  # noqa: N803
         """The checked evaluation of one stack: exactly ``BatchResult.stack(0)``."""
-        return evaluate(list(map(float, gaps_eV)), self.connection,
-                        **self.conditions).stack(0)
+        return evaluate(list(map(float, gaps_eV)), self.connection, **self.conditions).stack(0)
 
     # ---- identity ----------------------------------------------------------------------
     def describe(self) -> dict:
@@ -336,8 +345,9 @@ class SearchProblem:
 
     def default_study_name(self) -> str:
         """``<N>J-<connection>-<spectrum>-<hash>``."""
-        spec = str(self.conditions.get("spectrum_file") or self.conditions.get("spectrum",
-                                                                                  "AM1.5G"))
+        spec = str(
+            self.conditions.get("spectrum_file") or self.conditions.get("spectrum", "AM1.5G")
+        )
         spec = Path(spec).stem if self.conditions.get("spectrum_file") else spec
         return f"{self.n_junctions}J-{self.connection}-{spec}-{self.fingerprint()}"
 
@@ -408,10 +418,14 @@ def make_problem(
         spacing, mismatch ratio, robustness tolerance, or a window/spacing combination
         that no ordered stack can satisfy.
     """
-    if isinstance(n_junctions, bool) or not isinstance(n_junctions, int | np.integer) \
-            or not 2 <= int(n_junctions) <= MAX_JUNCTIONS:
-        raise InputError("n_junctions", f"must be a whole number from 2 to {MAX_JUNCTIONS}",
-                         n_junctions)
+    if (
+        isinstance(n_junctions, bool)
+        or not isinstance(n_junctions, int | np.integer)
+        or not 2 <= int(n_junctions) <= MAX_JUNCTIONS
+    ):
+        raise InputError(
+            "n_junctions", f"must be a whole number from 2 to {MAX_JUNCTIONS}", n_junctions
+        )
     n = int(n_junctions)
     if connection not in CONNECTIONS:
         raise InputError("connection", f"must be one of {', '.join(CONNECTIONS)}", connection)
@@ -425,8 +439,11 @@ def make_problem(
         else:
             items = list(bounds_eV)
             if len(items) != n:
-                raise InputError("bounds_eV", f"needs one (low, high) window, or one per "
-                                 f"junction ({n}), top first", bounds_eV)
+                raise InputError(
+                    "bounds_eV",
+                    f"needs one (low, high) window, or one per junction ({n}), top first",
+                    bounds_eV,
+                )
             win = np.array([_window(b, f"bounds_eV[{i + 1}]") for i, b in enumerate(items)])
     fixed = np.zeros(n, dtype=bool)
     if fixed_eV is not None:
@@ -435,8 +452,11 @@ def make_problem(
         else:
             items = list(fixed_eV)
             if len(items) != n:
-                raise InputError("fixed_eV", f"needs {n} entries (None for a free junction) "
-                                 "or a {junction: gap} mapping", fixed_eV)
+                raise InputError(
+                    "fixed_eV",
+                    f"needs {n} entries (None for a free junction) or a {{junction: gap}} mapping",
+                    fixed_eV,
+                )
             pairs = [(i + 1, v) for i, v in enumerate(items) if v is not None]
         for j, v in pairs:
             if isinstance(j, bool) or not isinstance(j, int | np.integer) or not 1 <= j <= n:
@@ -452,15 +472,20 @@ def make_problem(
     for i in range(1, n):
         top = min(win[i, 1], top - sp)
         if top < win[i, 0]:
-            raise InputError("bounds_eV", f"no stack with gaps decreasing by at least {sp:g} eV "
-                             f"fits the windows (junction {i + 1} cannot lie below junction {i})",
-                             win.tolist())
+            raise InputError(
+                "bounds_eV",
+                f"no stack with gaps decreasing by at least {sp:g} eV "
+                f"fits the windows (junction {i + 1} cannot lie below junction {i})",
+                win.tolist(),
+            )
     if min_mismatch_ratio is not None:
-        min_mismatch_ratio = check_range("min_mismatch_ratio", min_mismatch_ratio, 0.0, 1.0,
-                                         low_inclusive=False)
+        min_mismatch_ratio = check_range(
+            "min_mismatch_ratio", min_mismatch_ratio, 0.0, 1.0, low_inclusive=False
+        )
     if robustness_eV is not None:
-        robustness_eV = check_range("robustness_eV", robustness_eV, 0.0, MAX_ROBUSTNESS_EV,
-                                    low_inclusive=False, unit="eV")
+        robustness_eV = check_range(
+            "robustness_eV", robustness_eV, 0.0, MAX_ROBUSTNESS_EV, low_inclusive=False, unit="eV"
+        )
     # conditions: validated by one checked evaluation of an ordered stack inside the windows
     probe = np.empty(n)
     top = win[0, 1]
@@ -468,8 +493,17 @@ def make_problem(
     for i in range(1, n):
         probe[i] = min(win[i, 1], probe[i - 1] - sp)
     probe = np.maximum(probe, win[:, 0])
-    allowed = {"spectrum", "spectrum_file", "sun_temperature_K", "irradiance_W_m2",
-               "concentration", "temperature_K", "ere", "dark_current", "cells_per_string"}
+    allowed = {
+        "spectrum",
+        "spectrum_file",
+        "sun_temperature_K",
+        "irradiance_W_m2",
+        "concentration",
+        "temperature_K",
+        "ere",
+        "dark_current",
+        "cells_per_string",
+    }
     for k in conditions:
         if k not in allowed:
             raise InputError(k, f"is not a condition; use one of {', '.join(sorted(allowed))}")
@@ -479,5 +513,6 @@ def make_problem(
         objective = EfficiencyObjective(connection, conditions)
     elif not isinstance(objective, Objective):
         raise InputError("objective", "must be a gapmatch.search.Objective", type(objective))
-    return SearchProblem(n, connection, win, fixed, sp, min_mismatch_ratio, robustness_eV,
-                         objective, conditions)
+    return SearchProblem(
+        n, connection, win, fixed, sp, min_mismatch_ratio, robustness_eV, objective, conditions
+    )

@@ -22,7 +22,7 @@ def trials_frame(study, problem: SearchProblem) -> pd.DataFrame:
     stage, ``sampler``, ``polish``), ``gap_1_eV ... gap_N_eV`` (fixed gaps included),
     ``<objective>_pct`` (e.g. ``efficiency_pct``), ``worst_<objective>_pct`` with
     robustness, ``mismatch_ratio``, one column per constraint (``<= 0`` feasible),
-    ``feasible``, ``duration_s``.
+    ``feasible``, ``worker_pid`` (process that ran the trial), ``duration_s``.
     """
     rows = []
     cnames = problem.constraint_names
@@ -30,12 +30,16 @@ def trials_frame(study, problem: SearchProblem) -> pd.DataFrame:
     scale = problem.objective.scale
     suffix = "_pct" if scale == 100.0 else ""
     for t in study.get_trials(deepcopy=False):
-        row: dict[str, Any] = {"trial": t.number, "state": t.state.name,
-                               "stage": t.user_attrs.get("stage", "sampler")}
+        row: dict[str, Any] = {
+            "trial": t.number,
+            "state": t.state.name,
+            "stage": t.user_attrs.get("stage", "sampler"),
+        }
         for k in range(problem.n_junctions):
             nm = f"gap_{k + 1}_eV"
-            row[nm] = (float(problem.bounds_eV[k, 0]) if problem.fixed[k]
-                       else t.params.get(nm, math.nan))
+            row[nm] = (
+                float(problem.bounds_eV[k, 0]) if problem.fixed[k] else t.params.get(nm, math.nan)
+            )
         vals = t.values or [math.nan] * len(onames)
         for nm, v in zip(onames, vals, strict=False):
             row[f"{nm}{suffix}"] = scale * v if v is not None else math.nan
@@ -45,8 +49,8 @@ def trials_frame(study, problem: SearchProblem) -> pd.DataFrame:
         for nm, c in zip(cnames, cons, strict=False):
             row[nm] = c
         row["feasible"] = bool(ev.get("feasible", False))
-        row["duration_s"] = (t.duration.total_seconds() if t.duration is not None
-                             else math.nan)
+        row["worker_pid"] = ev.get("worker")
+        row["duration_s"] = t.duration.total_seconds() if t.duration is not None else math.nan
         rows.append(row)
     return pd.DataFrame(rows)
 
@@ -144,8 +148,13 @@ class SearchResult:
     def optima_frame(self) -> pd.DataFrame:
         """Best stack and alternatives: ``rank``, ``gap_k_eV``, ``<objective>_pct``,
         ``delta_pct`` (below the best), ``certified`` (table data for reports)."""
-        rows = [{"gaps_eV": list(map(float, self.best_gaps_eV)),
-                 self.problem.objective.name: self.best_value, "certified": self.certified}]
+        rows = [
+            {
+                "gaps_eV": list(map(float, self.best_gaps_eV)),
+                self.problem.objective.name: self.best_value,
+                "certified": self.certified,
+            }
+        ]
         rows += self.alternatives
         name = self.problem.objective.name
         s = self.problem.objective.scale
@@ -165,9 +174,10 @@ class SearchResult:
         keys of ``gapmatch evaluate --json``), plus ``alternatives`` and a ``search``
         block (study, storage, trials, seed, timings)."""
         out = dict(self.best)
-        out["alternatives"] = [{"gaps_eV": a["gaps_eV"],
-                                self.problem.objective.name: a[self.problem.objective.name]}
-                               for a in self.alternatives]
+        out["alternatives"] = [
+            {"gaps_eV": a["gaps_eV"], self.problem.objective.name: a[self.problem.objective.name]}
+            for a in self.alternatives
+        ]
         if self.robust_optima:
             out["robust_optima"] = self.robust_optima
         out["search"] = {

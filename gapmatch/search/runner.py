@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import json
 import multiprocessing as mp
+import os
 import shlex
 import sys
 import time
@@ -42,8 +43,16 @@ from .polish import polish
 from .problem import SearchProblem
 from .result import SearchResult, trials_frame
 
-__all__ = ["SAMPLERS", "DEFAULT_STORAGE", "SearchInterrupted", "optimise", "storage_url",
-           "sobol_candidates", "distinct", "default_trials"]
+__all__ = [
+    "SAMPLERS",
+    "DEFAULT_STORAGE",
+    "SearchInterrupted",
+    "optimise",
+    "storage_url",
+    "sobol_candidates",
+    "distinct",
+    "default_trials",
+]
 
 #: sampler names accepted by :func:`optimise`
 SAMPLERS = ("tpe", "cmaes", "random", "qmc", "gp", "nsga2")
@@ -144,8 +153,9 @@ def make_sampler(name: str, problem: SearchProblem, seed: int | None):
     supports it."""
     multi = problem.robustness_eV is not None
     if name == "tpe":
-        return optuna.samplers.TPESampler(seed=seed, multivariate=True, constraints_func=_cfunc(),
-                                          n_startup_trials=10)
+        return optuna.samplers.TPESampler(
+            seed=seed, multivariate=True, constraints_func=_cfunc(), n_startup_trials=10
+        )
     if name == "cmaes":
         if multi:
             raise InputError("sampler", "cmaes handles one objective only; use tpe or nsga2")
@@ -153,8 +163,9 @@ def make_sampler(name: str, problem: SearchProblem, seed: int | None):
     if name == "random":
         return optuna.samplers.RandomSampler(seed=seed)
     if name == "qmc":
-        return optuna.samplers.QMCSampler(seed=seed, qmc_type="sobol", scramble=True,
-                                          warn_independent_sampling=False)
+        return optuna.samplers.QMCSampler(
+            seed=seed, qmc_type="sobol", scramble=True, warn_independent_sampling=False
+        )
     if name == "gp":
         try:
             import torch  # noqa: F401
@@ -198,8 +209,7 @@ def sobol_candidates(problem: SearchProblem, n: int, seed: int) -> tuple[np.ndar
     return x[order], v[order]
 
 
-def distinct(x: np.ndarray, values: np.ndarray, count: int, sep: float = DISTINCT_EV
-             ) -> np.ndarray:
+def distinct(x: np.ndarray, values: np.ndarray, count: int, sep: float = DISTINCT_EV) -> np.ndarray:
     """Indices of up to ``count`` points, best first, each at least ``sep`` [eV] from the
     others in some coordinate (greedy by value)."""
     order = np.argsort(-np.asarray(values))
@@ -222,15 +232,26 @@ class _TrialObjective:
 
     def __call__(self, trial: optuna.Trial):
         p = self.problem
-        x = np.array([trial.suggest_float(name, float(p.bounds_eV[k, 0]), float(p.bounds_eV[k, 1]))
-                      for name, k in zip(p.param_names, p.free, strict=True)])
+        x = np.array(
+            [
+                trial.suggest_float(name, float(p.bounds_eV[k, 0]), float(p.bounds_eV[k, 1]))
+                for name, k in zip(p.param_names, p.free, strict=True)
+            ]
+        )
         for name, (lo, hi) in p.objective.extra_variables.items():  # room for thicknesses
             trial.suggest_float(name, lo, hi)
         ev = p.evaluate(p.full_gaps(x))
         cons = [float(c) for c in ev.constraints[0]]
         # one attribute write per trial (each write is a database round trip)
-        trial.set_user_attr("eval", {"constraints": cons, "feasible": bool(ev.feasible[0]),
-                                     "mismatch_ratio": float(ev.mismatch_ratio[0])})
+        trial.set_user_attr(
+            "eval",
+            {
+                "constraints": cons,
+                "feasible": bool(ev.feasible[0]),
+                "mismatch_ratio": float(ev.mismatch_ratio[0]),
+                "worker": os.getpid(),
+            },
+        )
         if _SET_CONSTRAINT:
             for name, c in zip(p.constraint_names, cons, strict=True):
                 trial.set_constraint(name, c)
@@ -244,8 +265,13 @@ def _open_study(problem, url, study_name, sampler_name, seed, create):
     directions = ["maximize"] * len(problem.objective_names)
     sampler = make_sampler(sampler_name, problem, seed)
     if create:
-        study = optuna.create_study(storage=storage, study_name=study_name, sampler=sampler,
-                                    directions=directions, load_if_exists=True)
+        study = optuna.create_study(
+            storage=storage,
+            study_name=study_name,
+            sampler=sampler,
+            directions=directions,
+            load_if_exists=True,
+        )
     else:
         study = optuna.load_study(study_name=study_name, storage=storage, sampler=sampler)
     return study
@@ -259,8 +285,7 @@ def _worker(problem, url, study_name, sampler_name, seed, total):  # pragma: no 
 
 def _finished(study) -> int:
     states = (optuna.trial.TrialState.COMPLETE, optuna.trial.TrialState.FAIL)
-    return sum(1 for t in study.get_trials(deepcopy=False, states=states)
-               if _stage(t) != "polish")
+    return sum(1 for t in study.get_trials(deepcopy=False, states=states) if _stage(t) != "polish")
 
 
 def _run_trials(study, problem, total, progress, shared=False):
@@ -275,8 +300,11 @@ def _run_trials(study, problem, total, progress, shared=False):
     def stop(study_, trial):
         state["n"] += 1
         state["since"] += 1
-        if (trial.state == optuna.trial.TrialState.COMPLETE and _attr(trial, "feasible")
-                and (state["best"] is None or trial.values[0] > state["best"])):
+        if (
+            trial.state == optuna.trial.TrialState.COMPLETE
+            and _attr(trial, "feasible")
+            and (state["best"] is None or trial.values[0] > state["best"])
+        ):
             state["best"] = trial.values[0]
         if shared and (state["since"] >= 10 or state["n"] >= total):
             state["n"], state["since"] = _finished(study_), 0
@@ -292,9 +320,11 @@ def _run_trials(study, problem, total, progress, shared=False):
 
 
 def _best_value(study) -> float | None:
-    vals = [t.values[0] for t in study.get_trials(deepcopy=False,
-                                                  states=(optuna.trial.TrialState.COMPLETE,))
-            if _attr(t, "feasible") and t.values]
+    vals = [
+        t.values[0]
+        for t in study.get_trials(deepcopy=False, states=(optuna.trial.TrialState.COMPLETE,))
+        if _attr(t, "feasible") and t.values
+    ]
     return max(vals) if vals else None
 
 
@@ -364,17 +394,24 @@ def optimise(
     t0 = time.perf_counter()
     if trials is None:
         trials = default_trials(problem)
-    for name, v, lo, hi in (("trials", trials, 0, 1_000_000), ("workers", workers, 1, 64),
-                            ("n_seeds", n_seeds, 0, 1000), ("polish_starts", polish_starts, 1, 100),
-                            ("alternatives", alternatives, 0, 100)):
+    for name, v, lo, hi in (
+        ("trials", trials, 0, 1_000_000),
+        ("workers", workers, 1, 64),
+        ("n_seeds", n_seeds, 0, 1000),
+        ("polish_starts", polish_starts, 1, 100),
+        ("alternatives", alternatives, 0, 100),
+    ):
         if isinstance(v, bool) or not isinstance(v, int | np.integer) or not lo <= v <= hi:
             raise InputError(name, f"must be a whole number in [{lo}, {hi}]", v)
     if sampler not in SAMPLERS:
         raise InputError("sampler", f"must be one of {', '.join(SAMPLERS)}", sampler)
     url = storage_url(storage)
     if url is None and workers > 1:
-        raise InputError("workers", "more than one worker needs a storage (SQLite file or "
-                         "database URL), not ':memory:'", workers)
+        raise InputError(
+            "workers",
+            "more than one worker needs a storage (SQLite file or database URL), not ':memory:'",
+            workers,
+        )
     study_name = study_name or problem.default_study_name()
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     study = _open_study(problem, url, study_name, sampler, seed, create=True)
@@ -384,43 +421,74 @@ def optimise(
         study.set_user_attr("problem", desc)
         study.set_user_attr("seed", int(seed))
     elif stored != desc:
-        raise InputError("study_name", "names a study of a different problem; choose "
-                         "another --study-name or the same problem", study_name)
+        raise InputError(
+            "study_name",
+            "names a study of a different problem; choose another --study-name or the same problem",
+            study_name,
+        )
     seed0 = int(study.user_attrs.get("seed", seed))
     resumed = len(study.trials) > 0
 
     # 1. global stage (deterministic from the study's seed: recomputed on resume)
     ng = _global_samples(problem) if global_samples is None else int(global_samples)
-    gx, gv = (sobol_candidates(problem, ng, seed0) if ng > 0
-              else (np.empty((0, problem.n_free)), np.empty(0)))
+    gx, gv = (
+        sobol_candidates(problem, ng, seed0)
+        if ng > 0
+        else (np.empty((0, problem.n_free)), np.empty(0))
+    )
     seeds = distinct(gx, gv, n_seeds) if len(gx) else np.empty(0, dtype=int)
     if not resumed:
         for i in seeds:
-            study.enqueue_trial(dict(zip(problem.param_names, map(float, gx[i]), strict=True)),
-                                user_attrs={"stage": "sobol"})
+            study.enqueue_trial(
+                dict(zip(problem.param_names, map(float, gx[i]), strict=True)),
+                user_attrs={"stage": "sobol"},
+            )
 
     # 2. optuna trials
     if resume_command is None:
-        resume_command = (f"gapmatch.search.optimise(problem, storage={url or ':memory:'!r}, "
-                          f"study_name={study_name!r}, trials={trials})")
+        resume_command = (
+            f"gapmatch.search.optimise(problem, storage={url or ':memory:'!r}, "
+            f"study_name={study_name!r}, trials={trials})"
+        )
     procs: list = []
     bar = None
     try:
         if progress:
             from tqdm import tqdm
 
-            bar = tqdm(total=trials, initial=min(_finished(study), trials), desc="trials",
-                       file=sys.stderr, unit="trial", dynamic_ncols=True)
+            bar = tqdm(
+                total=trials,
+                initial=min(_finished(study), trials),
+                desc="trials",
+                file=sys.stderr,
+                unit="trial",
+                dynamic_ncols=True,
+            )
         if workers > 1:
+            # every worker is a process of its own; this one only watches the storage
             ctx = mp.get_context("spawn")
-            for i in range(1, workers):
-                pr = ctx.Process(target=_worker, args=(problem, url, study_name, sampler,
-                                                       seed + i, trials), daemon=True)
+            for i in range(workers):
+                pr = ctx.Process(
+                    target=_worker,
+                    args=(problem, url, study_name, sampler, seed + i, trials),
+                    daemon=True,
+                )
                 pr.start()
                 procs.append(pr)
-        _run_trials(study, problem, trials, bar, shared=workers > 1)
-        for pr in procs:
-            pr.join()
+            while any(pr.is_alive() for pr in procs):
+                time.sleep(0.5)
+                if bar is not None:
+                    bar.n = min(_finished(study), trials)
+                    best = _best_value(study)
+                    if best is not None:
+                        bar.set_postfix_str(f"best {100 * best:.3f} %", refresh=False)
+                    bar.refresh()
+            for pr in procs:
+                pr.join()
+            if any(pr.exitcode != 0 for pr in procs):
+                raise RuntimeError("a search worker process failed; see its message above")
+        else:
+            _run_trials(study, problem, trials, bar)
     except KeyboardInterrupt:
         for pr in procs:
             if pr.is_alive():
@@ -428,8 +496,11 @@ def optimise(
                 pr.join(5)
         if bar is not None:
             bar.close()
-        print(f"\ninterrupted: {_finished(study)} trials are stored in {url or 'memory'} "
-              f"(study {study_name!r}). Resume with:\n  {resume_command}", file=sys.stderr)
+        print(
+            f"\ninterrupted: {_finished(study)} trials are stored in {url or 'memory'} "
+            f"(study {study_name!r}). Resume with:\n  {resume_command}",
+            file=sys.stderr,
+        )
         raise SearchInterrupted(resume_command) from None
     finally:
         if bar is not None:
@@ -446,16 +517,23 @@ def optimise(
     cv = np.concatenate([gv[: 50 * polish_starts], np.array(tv)])
     best_trial = float(np.max(tv)) if tv else float("nan")
     if len(cx) == 0:
-        raise InputError("bounds_eV", "no feasible stack was found; widen the windows or "
-                         "relax the constraints")
+        raise InputError(
+            "bounds_eV", "no feasible stack was found; widen the windows or relax the constraints"
+        )
     starts = distinct(cx, cv, polish_starts)
     pol = polish(problem, cx[starts], seed=seed0)
     robust_pol = []
     if problem.robustness_eV is not None:
-        rx = [[t.params[nm] for nm in problem.param_names] for t in all_trials
-              if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible")]
-        rv = [t.values[1] for t in all_trials
-              if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible")]
+        rx = [
+            [t.params[nm] for nm in problem.param_names]
+            for t in all_trials
+            if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible")
+        ]
+        rv = [
+            t.values[1]
+            for t in all_trials
+            if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible")
+        ]
         if rx:
             rx = np.array(rx)
             ri = distinct(rx, np.array(rv), 3)
@@ -471,40 +549,80 @@ def optimise(
     full = problem.full_evaluation(best.gaps_eV)
     frame = trials_frame(study, problem)
     return SearchResult(
-        problem=problem, study_name=study_name, storage=url or ":memory:",
-        best=full, best_gaps_eV=best.gaps_eV.copy(), best_value=best.value,
+        problem=problem,
+        study_name=study_name,
+        storage=url or ":memory:",
+        best=full,
+        best_gaps_eV=best.gaps_eV.copy(),
+        best_value=best.value,
         certified=best.certified,
-        alternatives=[{"gaps_eV": [float(g) for g in r.gaps_eV], problem.objective.name:
-                       float(r.value), "certified": r.certified} for r in alts],
-        robust_optima=[{"gaps_eV": [float(g) for g in r.gaps_eV],
-                        f"worst_{problem.objective.name}": float(r.value),
-                        problem.objective.name: float(problem.evaluate(r.gaps_eV[None])
-                                                      .value[0])} for r in robust_pol],
-        trials=frame, best_trial_value=best_trial, n_trials=_finished(study),
-        resumed=resumed, seed=seed0, sampler=sampler, workers=workers,
-        global_samples=ng, elapsed_s=time.perf_counter() - t0,
+        alternatives=[
+            {
+                "gaps_eV": [float(g) for g in r.gaps_eV],
+                problem.objective.name: float(r.value),
+                "certified": r.certified,
+            }
+            for r in alts
+        ],
+        robust_optima=[
+            {
+                "gaps_eV": [float(g) for g in r.gaps_eV],
+                f"worst_{problem.objective.name}": float(r.value),
+                problem.objective.name: float(problem.evaluate(r.gaps_eV[None]).value[0]),
+            }
+            for r in robust_pol
+        ],
+        trials=frame,
+        best_trial_value=best_trial,
+        n_trials=_finished(study),
+        resumed=resumed,
+        seed=seed0,
+        sampler=sampler,
+        workers=workers,
+        global_samples=ng,
+        elapsed_s=time.perf_counter() - t0,
     )
 
 
 def _store_polished(study, problem, results) -> None:
-    dists = {nm: optuna.distributions.FloatDistribution(float(problem.bounds_eV[k, 0]),
-                                                        float(problem.bounds_eV[k, 1]))
-             for nm, k in zip(problem.param_names, problem.free, strict=True)}
+    dists = {
+        nm: optuna.distributions.FloatDistribution(
+            float(problem.bounds_eV[k, 0]), float(problem.bounds_eV[k, 1])
+        )
+        for nm, k in zip(problem.param_names, problem.free, strict=True)
+    }
     for r in results:
         ev = problem.evaluate(r.gaps_eV[None])
         values = [float(ev.value[0])]
         if ev.robust is not None:
             values.append(float(ev.robust[0]))
         cons = [float(c) for c in ev.constraints[0]]
-        params = {nm: float(np.clip(r.x_eV[i], dists[nm].low, dists[nm].high))
-                  for i, nm in enumerate(problem.param_names)}
-        kw = (dict(constraints=dict(zip(problem.constraint_names, cons, strict=True)))
-              if _SET_CONSTRAINT else dict(system_attrs={"constraints": cons}))
-        study.add_trial(optuna.trial.create_trial(
-            values=values, params=params, distributions=dists,
-            user_attrs={"stage": "polish", "certified": r.certified,
-                        "eval": {"constraints": cons, "feasible": bool(ev.feasible[0]),
-                                 "mismatch_ratio": float(ev.mismatch_ratio[0])}}, **kw))
+        params = {
+            nm: float(np.clip(r.x_eV[i], dists[nm].low, dists[nm].high))
+            for i, nm in enumerate(problem.param_names)
+        }
+        kw = (
+            dict(constraints=dict(zip(problem.constraint_names, cons, strict=True)))
+            if _SET_CONSTRAINT
+            else dict(system_attrs={"constraints": cons})
+        )
+        study.add_trial(
+            optuna.trial.create_trial(
+                values=values,
+                params=params,
+                distributions=dists,
+                user_attrs={
+                    "stage": "polish",
+                    "certified": r.certified,
+                    "eval": {
+                        "constraints": cons,
+                        "feasible": bool(ev.feasible[0]),
+                        "mismatch_ratio": float(ev.mismatch_ratio[0]),
+                    },
+                },
+                **kw,
+            )
+        )
 
 
 def shell_join(argv: list[str]) -> str:
