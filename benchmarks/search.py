@@ -55,14 +55,29 @@ def reference_optimum(n: int, connection: str, seeds: int = 4) -> tuple[np.ndarr
     for s in range(seeds):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            r = differential_evolution(neg_eff, [WINDOW_EV] * n, seed=s, popsize=30,
-                                       maxiter=3000, tol=1e-12, atol=0, polish=False,
-                                       vectorized=True, updating="deferred",
-                                       init="sobol", mutation=(0.5, 1.0), recombination=0.9)
+            r = differential_evolution(
+                neg_eff,
+                [WINDOW_EV] * n,
+                seed=s,
+                popsize=30,
+                maxiter=3000,
+                tol=1e-12,
+                atol=0,
+                polish=False,
+                vectorized=True,
+                updating="deferred",
+                init="sobol",
+                mutation=(0.5, 1.0),
+                recombination=0.9,
+            )
         x, f = r.x, r.fun
         for _ in range(3):  # Nelder-Mead restarts from the DE result
-            m = minimize(neg_eff, x, method="Nelder-Mead",
-                         options=dict(xatol=1e-7, fatol=1e-13, maxfev=20000, adaptive=True))
+            m = minimize(
+                neg_eff,
+                x,
+                method="Nelder-Mead",
+                options=dict(xatol=1e-7, fatol=1e-13, maxfev=20000, adaptive=True),
+            )
             if m.fun < f - 1e-13:
                 x, f = m.x, m.fun
             else:
@@ -72,8 +87,9 @@ def reference_optimum(n: int, connection: str, seeds: int = 4) -> tuple[np.ndarr
     return np.asarray(best_x), -best_f
 
 
-def measure(junctions=(2, 3, 4, 5, 6), connections=("series", "independent"),
-            verbose: bool = False) -> list[dict]:
+def measure(
+    junctions=(2, 3, 4, 5, 6), connections=("series", "independent"), verbose: bool = False
+) -> list[dict]:
     """Run every case; one dict per case (``n_junctions``, ``connection``,
     ``found_pct``, ``reference_pct``, ``shortfall_pct``, ``tolerance_pct``,
     ``time_s``, ``time_target_s``, ``ok``, ``gaps_eV``, ``reference_gaps_eV``)."""
@@ -83,8 +99,13 @@ def measure(junctions=(2, 3, 4, 5, 6), connections=("series", "independent"),
             for conn in connections:
                 problem = make_problem(n, conn)
                 t0 = time.perf_counter()
-                res = optimise(problem, storage=Path(tmp) / "bench.db",
-                               study_name=f"{n}-{conn}", seed=0, progress=False)
+                res = optimise(
+                    problem,
+                    storage=Path(tmp) / "bench.db",
+                    study_name=f"{n}-{conn}",
+                    seed=0,
+                    progress=False,
+                )
                 dt = time.perf_counter() - t0
                 t1 = time.perf_counter()
                 rg, rv = reference_optimum(n, conn)
@@ -92,13 +113,22 @@ def measure(junctions=(2, 3, 4, 5, 6), connections=("series", "independent"),
                 short = 100 * (rv - res.best_value)
                 tol = _tolerance_pct(n)
                 target = TIME_TARGET_S.get(n)
-                row = dict(n_junctions=n, connection=conn, found_pct=100 * res.best_value,
-                           reference_pct=100 * rv, shortfall_pct=short, tolerance_pct=tol,
-                           time_s=dt, time_target_s=target, reference_time_s=ref_time,
-                           trials=res.n_trials, certified=res.certified,
-                           gaps_eV=[round(float(g), 4) for g in res.best_gaps_eV],
-                           reference_gaps_eV=[round(float(g), 4) for g in rg],
-                           ok=bool(short <= tol and (target is None or dt <= target)))
+                row = dict(
+                    n_junctions=n,
+                    connection=conn,
+                    found_pct=100 * res.best_value,
+                    reference_pct=100 * rv,
+                    shortfall_pct=short,
+                    tolerance_pct=tol,
+                    time_s=dt,
+                    time_target_s=target,
+                    reference_time_s=ref_time,
+                    trials=res.n_trials,
+                    certified=res.certified,
+                    gaps_eV=[round(float(g), 4) for g in res.best_gaps_eV],
+                    reference_gaps_eV=[round(float(g), 4) for g in rg],
+                    ok=bool(short <= tol and (target is None or dt <= target)),
+                )
                 rows.append(row)
                 if verbose:
                     print(format_row(row), flush=True)
@@ -107,11 +137,13 @@ def measure(junctions=(2, 3, 4, 5, 6), connections=("series", "independent"),
 
 def format_row(r: dict) -> str:
     t = f"<= {r['time_target_s']:.0f} s" if r["time_target_s"] else "no target"
-    return (f"N={r['n_junctions']} {r['connection']:<11} found {r['found_pct']:.4f} % "
-            f"ref {r['reference_pct']:.4f} % shortfall {r['shortfall_pct']:+.4f} "
-            f"(tol {r['tolerance_pct']}) time {r['time_s']:6.1f} s ({t}) "
-            f"gaps {r['gaps_eV']} ref {r['reference_gaps_eV']} "
-            f"{'OK' if r['ok'] else 'MISS'}")
+    return (
+        f"N={r['n_junctions']} {r['connection']:<11} found {r['found_pct']:.4f} % "
+        f"ref {r['reference_pct']:.4f} % shortfall {r['shortfall_pct']:+.4f} "
+        f"(tol {r['tolerance_pct']}) time {r['time_s']:6.1f} s ({t}) "
+        f"gaps {r['gaps_eV']} ref {r['reference_gaps_eV']} "
+        f"{'OK' if r['ok'] else 'MISS'}"
+    )
 
 
 if __name__ == "__main__":

@@ -26,8 +26,21 @@ def _complete(db: Path, name: str) -> int:
 def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
     db = tmp_path / "ctrlc.db"
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    cmd = [sys.executable, "-m", "gapmatch", "optimise", "--junctions", "2", "--trials",
-           "100000", "--storage", str(db), "--study-name", "ctrlc", "--no-progress"]
+    cmd = [
+        sys.executable,
+        "-m",
+        "gapmatch",
+        "optimise",
+        "--junctions",
+        "2",
+        "--trials",
+        "100000",
+        "--storage",
+        str(db),
+        "--study-name",
+        "ctrlc",
+        "--no-progress",
+    ]
     proc = subprocess.Popen(cmd, cwd=tmp_path, env=env, stderr=subprocess.PIPE, text=True)
     try:
         deadline = time.monotonic() + 60
@@ -43,10 +56,22 @@ def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
     kept = _complete(db, "ctrlc")
     assert kept >= 5
     # the printed command, with a reachable trial count, resumes the same study
-    resume = [sys.executable, "-m", "gapmatch", "optimise", "--junctions", "2", "--trials",
-              str(kept + 3), "--storage", str(db), "--study-name", "ctrlc", "--no-progress",
-              "--json"]
-    out = subprocess.run(resume, cwd=tmp_path, env=env, capture_output=True, text=True,
-                         timeout=120)
+    resume = [
+        sys.executable,
+        "-m",
+        "gapmatch",
+        "optimise",
+        "--junctions",
+        "2",
+        "--trials",
+        str(kept + 3),
+        "--storage",
+        str(db),
+        "--study-name",
+        "ctrlc",
+        "--no-progress",
+        "--json",
+    ]
+    out = subprocess.run(resume, cwd=tmp_path, env=env, capture_output=True, text=True, timeout=120)
     assert out.returncode == 0, out.stderr
     assert '"resumed": true' in out.stdout

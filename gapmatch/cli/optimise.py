@@ -84,7 +84,7 @@ def register(sub) -> None:
         "--trials",
         type=int,
         metavar="N",
-        help="total optuna trials of the study (default 30 + 10 per free gap, "
+        help="total optuna trials of the study (default 20 + 5 per free gap, "
         "doubled with --robustness); a resumed study runs only the missing ones",
     )
     s.add_argument("--seed", type=int, default=0, help="random seed (default 0)")

@@ -72,8 +72,12 @@ class SearchInterrupted(KeyboardInterrupt):
 
 
 def default_trials(problem: SearchProblem) -> int:
-    """Default total trial count: 30 + 10 per free gap (x2 with robustness)."""
-    n = 30 + 10 * problem.n_free
+    """Default total trial count: 20 + 5 per free gap (x2 with robustness).
+
+    The Sobol stage and the polish carry the accuracy (see DEVELOPERS.md); each stored
+    trial costs about 0.1 s of database work with SQLite, so the default stays modest.
+    """
+    n = 20 + 5 * problem.n_free
     return 2 * n if problem.robustness_eV is not None else n
 
 
@@ -159,6 +163,10 @@ def make_sampler(name: str, problem: SearchProblem, seed: int | None):
     if name == "cmaes":
         if multi:
             raise InputError("sampler", "cmaes handles one objective only; use tpe or nsga2")
+        try:
+            import cmaes  # noqa: F401
+        except ImportError:
+            raise InputError("sampler", "cmaes needs the 'cmaes' package") from None
         return optuna.samplers.CmaEsSampler(seed=seed, warn_independent_sampling=False)
     if name == "random":
         return optuna.samplers.RandomSampler(seed=seed)
@@ -521,7 +529,7 @@ def optimise(
             "bounds_eV", "no feasible stack was found; widen the windows or relax the constraints"
         )
     starts = distinct(cx, cv, polish_starts)
-    pol = polish(problem, cx[starts], seed=seed0)
+    pol = polish(problem, cx[starts], seed=seed0, nelder_mead=3)
     robust_pol = []
     if problem.robustness_eV is not None:
         rx = [
