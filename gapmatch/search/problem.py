@@ -84,9 +84,10 @@ class Objective(ABC):
     and implement :meth:`evaluate`. An energy-yield objective would integrate the
     stack's power over a year of spectra and temperatures in :meth:`evaluate`; the rest
     of the search does not change. Extra design variables (for example absorber
-    thicknesses [m]) are declared in :attr:`extra_variables` as ``name -> (low, high)``
-    and arrive as columns of ``extra`` in :meth:`evaluate` (the efficiency objective has
-    none; the search samples them as further optuna parameters).
+    thicknesses [m]) are reserved: :attr:`extra_variables` (``name -> (low, high)``)
+    and the ``extra`` argument of :meth:`evaluate` are the interface they will use, but
+    the search does not vary them yet and :func:`make_problem` rejects an objective that
+    declares any.
     """
 
     name: str = "objective"
@@ -159,6 +160,8 @@ class EfficiencyObjective(Objective):
             k: (np.asarray(v).tolist() if isinstance(v, np.ndarray | list | tuple) else v)
             for k, v in c.items()
         }
+        if not isinstance(c.get("spectrum", ""), str):  # a Spectrum object: its description
+            c["spectrum"] = self.spectrum.describe()
         return {"name": self.name, "connection": self.connection, "conditions": c}
 
 
@@ -513,6 +516,9 @@ def make_problem(
         objective = EfficiencyObjective(connection, conditions)
     elif not isinstance(objective, Objective):
         raise InputError("objective", "must be a gapmatch.search.Objective", type(objective))
+    if objective.extra_variables:
+        raise InputError("objective", "extra design variables (e.g. thicknesses) are not "
+                         "searched yet; only band gaps", sorted(objective.extra_variables))
     return SearchProblem(
         n, connection, win, fixed, sp, min_mismatch_ratio, robustness_eV, objective, conditions
     )

@@ -246,8 +246,6 @@ class _TrialObjective:
                 for name, k in zip(p.param_names, p.free, strict=True)
             ]
         )
-        for name, (lo, hi) in p.objective.extra_variables.items():  # room for thicknesses
-            trial.suggest_float(name, lo, hi)
         ev = p.evaluate(p.full_gaps(x))
         cons = [float(c) for c in ev.constraints[0]]
         # one attribute write per trial (each write is a database round trip)
