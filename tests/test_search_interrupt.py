@@ -74,4 +74,4 @@ def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
     ]
     out = subprocess.run(resume, cwd=tmp_path, env=env, capture_output=True, text=True, timeout=120)
     assert out.returncode == 0, out.stderr
-    assert '"resumed": true' in out.stdout
+    assert "(resumed)" in out.stderr and '"efficiency"' in out.stdout

@@ -206,7 +206,18 @@ def run(args: argparse.Namespace) -> int:
     if args.csv:
         write_atomic(args.csv, res.to_frame().to_csv(index=False))
     if args.json:
-        print(json.dumps(res.to_dict(), indent=2))
+        # stdout: exactly the keys of 'gapmatch evaluate --json' plus 'alternatives';
+        # where the study lives goes to stderr
+        out = res.to_dict()
+        meta = out.pop("search")
+        out.pop("robust_optima", None)
+        print(json.dumps(out, indent=2))
+        print(
+            f"study {meta['study_name']!r} in {meta['storage']}: {meta['trials']} trials"
+            f"{' (resumed)' if meta['resumed'] else ''}, seed {meta['seed']}, "
+            f"{meta['elapsed_s']:.1f} s",
+            file=sys.stderr,
+        )
         return 0
     print(format_summary(res))
     return 0

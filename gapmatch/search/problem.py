@@ -517,8 +517,11 @@ def make_problem(
     elif not isinstance(objective, Objective):
         raise InputError("objective", "must be a gapmatch.search.Objective", type(objective))
     if objective.extra_variables:
-        raise InputError("objective", "extra design variables (e.g. thicknesses) are not "
-                         "searched yet; only band gaps", sorted(objective.extra_variables))
+        raise InputError(
+            "objective",
+            "extra design variables (e.g. thicknesses) are not searched yet; only band gaps",
+            sorted(objective.extra_variables),
+        )
     return SearchProblem(
         n, connection, win, fixed, sp, min_mismatch_ratio, robustness_eV, objective, conditions
     )
