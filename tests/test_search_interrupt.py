@@ -51,7 +51,7 @@ def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
     finally:
         if proc.poll() is None:
             proc.kill()
-    assert proc.returncode == 130
+    assert proc.returncode == 130, err[-3000:]
     assert "Resume with" in err and "--study-name ctrlc" in err and "Traceback" not in err
     kept = _complete(db, "ctrlc")
     assert kept >= 5

@@ -511,6 +511,13 @@ def make_problem(
         if k not in allowed:
             raise InputError(k, f"is not a condition; use one of {', '.join(sorted(allowed))}")
     conditions = {k: v for k, v in conditions.items() if v is not None}
+    if connection == "voltage-matched" and n > 2 and conditions.get("cells_per_string") is None:
+        raise InputError(
+            "cells_per_string",
+            "must be given to search voltage-matched stacks "
+            "of more than 2 junctions (the automatic ratio choice is too slow to "
+            "search), e.g. (1, 2, 3)",
+        )
     evaluate(probe.tolist(), connection, require_descending=False, **conditions)
     if objective is None:
         objective = EfficiencyObjective(connection, conditions)

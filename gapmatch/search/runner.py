@@ -81,8 +81,32 @@ def default_trials(problem: SearchProblem) -> int:
     return 2 * n if problem.robustness_eV is not None else n
 
 
-def _global_samples(problem: SearchProblem) -> int:
-    return 2 ** min(18, 11 + 2 * problem.n_free - (problem.n_free > 3) * (problem.n_free - 3))
+#: evaluation time per stack above which the polish uses 3 starts and no Nelder-Mead [s]
+SLOW_STACK_S = 20e-6
+#: time budget of the Sobol stage for slow objectives [s]
+GLOBAL_BUDGET_S = 4.0
+
+
+def stack_cost_s(problem: SearchProblem, probe: int = 64) -> float:
+    """Measured evaluation time per stack [s] (a probe batch of ordered stacks)."""
+    lo, hi = problem.bounds_eV[:, 0], problem.bounds_eV[:, 1]
+    rng = np.random.default_rng(0)
+    g = lo + rng.random((probe, problem.n_junctions)) * (hi - lo)
+    t = time.perf_counter()
+    problem.evaluate(g, robust=False)
+    return (time.perf_counter() - t) / probe
+
+
+def _global_samples(problem: SearchProblem, per: float | None = None) -> int:
+    """Sobol sample size: 2^13 (one free gap) to 2^18 (four or more), reduced to fit
+    :data:`GLOBAL_BUDGET_S` when the objective is slow (e.g. voltage matching with the
+    automatic string ratio), never below 2^9."""
+    k = problem.n_free
+    n = 2 ** min(18, 11 + 2 * k - (k > 3) * (k - 3))
+    per = stack_cost_s(problem) if per is None else per
+    if per * 2 * n > GLOBAL_BUDGET_S:  # two sets of n points are evaluated
+        n = 2 ** max(9, int(np.log2(GLOBAL_BUDGET_S / (2 * per))))
+    return n
 
 
 def storage_url(storage: str | Path | None) -> str | None:
@@ -284,7 +308,7 @@ def _open_study(problem, url, study_name, sampler_name, seed, create):
 
 
 def _worker(problem, url, study_name, sampler_name, seed, total):  # pragma: no cover - subprocess
-    optuna.logging.set_verbosity(optuna.logging.WARNING)
+    optuna.logging.set_verbosity(optuna.logging.ERROR)
     study = _open_study(problem, url, study_name, sampler_name, seed, create=False)
     _run_trials(study, problem, total, progress=None, shared=True)
 
@@ -419,7 +443,7 @@ def optimise(
             workers,
         )
     study_name = study_name or problem.default_study_name()
-    optuna.logging.set_verbosity(optuna.logging.WARNING)
+    optuna.logging.set_verbosity(optuna.logging.ERROR)
     study = _open_study(problem, url, study_name, sampler, seed, create=True)
     desc = json.dumps(problem.describe(), sort_keys=True, default=str)
     stored = study.user_attrs.get("problem")
@@ -436,7 +460,9 @@ def optimise(
     resumed = len(study.trials) > 0
 
     # 1. global stage (deterministic from the study's seed: recomputed on resume)
-    ng = _global_samples(problem) if global_samples is None else int(global_samples)
+    per = stack_cost_s(problem)
+    slow = per > SLOW_STACK_S
+    ng = _global_samples(problem, per) if global_samples is None else int(global_samples)
     gx, gv = (
         sobol_candidates(problem, ng, seed0)
         if ng > 0
@@ -471,7 +497,14 @@ def optimise(
                 dynamic_ncols=True,
             )
         if workers > 1:
-            # every worker is a process of its own; this one only watches the storage
+            # the enqueued Sobol seeds run here first: several processes popping the same
+            # waiting trial from SQLite can collide
+            waiting = len(
+                study.get_trials(deepcopy=False, states=(optuna.trial.TrialState.WAITING,))
+            )
+            if waiting:
+                _run_trials(study, problem, min(trials, _finished(study) + waiting), bar)
+            # then every worker is a process of its own; this one watches the storage
             ctx = mp.get_context("spawn")
             for i in range(workers):
                 pr = ctx.Process(
@@ -527,7 +560,9 @@ def optimise(
             "bounds_eV", "no feasible stack was found; widen the windows or relax the constraints"
         )
     starts = distinct(cx, cv, polish_starts)
-    pol = polish(problem, cx[starts], seed=seed0, nelder_mead=3)
+    if slow:  # e.g. voltage matching with the automatic ratio: fewer, cheaper starts
+        starts = starts[:3]
+    pol = polish(problem, cx[starts], seed=seed0, nelder_mead=0 if slow else 3)
     robust_pol = []
     if problem.robustness_eV is not None:
         rx = [
