@@ -29,6 +29,7 @@ import json
 import multiprocessing as mp
 import os
 import shlex
+import signal
 import sys
 import time
 import warnings
@@ -309,8 +310,35 @@ def _open_study(problem, url, study_name, sampler_name, seed, create):
 
 def _worker(problem, url, study_name, sampler_name, seed, total):  # pragma: no cover - subprocess
     optuna.logging.set_verbosity(optuna.logging.ERROR)
-    study = _open_study(problem, url, study_name, sampler_name, seed, create=False)
-    _run_trials(study, problem, total, progress=None, shared=True)
+    with _GracefulStop() as guard:
+        study = _open_study(problem, url, study_name, sampler_name, seed, create=False)
+        _run_trials(study, problem, total, progress=None, shared=True, guard=guard)
+
+
+class _GracefulStop:
+    """First Ctrl-C: finish the running trial, then stop (no database write is cut in
+    half). A second Ctrl-C interrupts at once."""
+
+    def __init__(self) -> None:
+        self.requested = False
+        self._old = None
+
+    def _handle(self, signum, frame):  # pragma: no cover - signal handler
+        if self.requested:
+            raise KeyboardInterrupt
+        self.requested = True
+
+    def __enter__(self):
+        try:
+            self._old = signal.signal(signal.SIGINT, self._handle)
+        except ValueError:  # not the main thread: leave Ctrl-C alone
+            self._old = None
+        return self
+
+    def __exit__(self, *exc):
+        if self._old is not None:
+            signal.signal(signal.SIGINT, self._old)
+        return False
 
 
 def _finished(study) -> int:
@@ -318,13 +346,13 @@ def _finished(study) -> int:
     return sum(1 for t in study.get_trials(deepcopy=False, states=states) if _stage(t) != "polish")
 
 
-def _run_trials(study, problem, total, progress, shared=False):
+def _run_trials(study, problem, total, progress, shared=False, guard=None):
     """Run trials until the study holds ``total`` finished exploration trials. The count
     is kept locally and re-read from the storage every 10 trials when other workers
     share it."""
     obj = _TrialObjective(problem)
     state = {"n": _finished(study), "best": _best_value(study), "since": 0}
-    if state["n"] >= total:
+    if state["n"] >= total or (guard is not None and guard.requested):
         return
 
     def stop(study_, trial):
@@ -343,7 +371,7 @@ def _run_trials(study, problem, total, progress, shared=False):
             if state["best"] is not None:
                 progress.set_postfix_str(f"best {100 * state['best']:.3f} %", refresh=False)
             progress.refresh()
-        if state["n"] >= total:
+        if state["n"] >= total or (guard is not None and guard.requested):
             study_.stop()
 
     study.optimize(obj, n_trials=None, callbacks=[stop], catch=(), gc_after_trial=False)
@@ -484,66 +512,81 @@ def optimise(
         )
     procs: list = []
     bar = None
+    guard = _GracefulStop()
     try:
-        if progress:
-            from tqdm import tqdm
+        with guard:
+            if progress:
+                from tqdm import tqdm
 
-            bar = tqdm(
-                total=trials,
-                initial=min(_finished(study), trials),
-                desc="trials",
-                file=sys.stderr,
-                unit="trial",
-                dynamic_ncols=True,
-            )
-        if workers > 1:
-            # the enqueued Sobol seeds run here first: several processes popping the same
-            # waiting trial from SQLite can collide
-            waiting = len(
-                study.get_trials(deepcopy=False, states=(optuna.trial.TrialState.WAITING,))
-            )
-            if waiting:
-                _run_trials(study, problem, min(trials, _finished(study) + waiting), bar)
-            # then every worker is a process of its own; this one watches the storage
-            ctx = mp.get_context("spawn")
-            for i in range(workers):
-                pr = ctx.Process(
-                    target=_worker,
-                    args=(problem, url, study_name, sampler, seed + i, trials),
-                    daemon=True,
+                bar = tqdm(
+                    total=trials,
+                    initial=min(_finished(study), trials),
+                    desc="trials",
+                    file=sys.stderr,
+                    unit="trial",
+                    dynamic_ncols=True,
                 )
-                pr.start()
-                procs.append(pr)
-            while any(pr.is_alive() for pr in procs):
-                time.sleep(0.5)
-                if bar is not None:
-                    bar.n = min(_finished(study), trials)
-                    best = _best_value(study)
-                    if best is not None:
-                        bar.set_postfix_str(f"best {100 * best:.3f} %", refresh=False)
-                    bar.refresh()
-            for pr in procs:
-                pr.join()
-            if any(pr.exitcode != 0 for pr in procs):
-                raise RuntimeError("a search worker process failed; see its message above")
-        else:
-            _run_trials(study, problem, trials, bar)
-    except KeyboardInterrupt:
+            if workers > 1:
+                # the enqueued Sobol seeds run here first: several processes popping the
+                # same waiting trial from SQLite can collide
+                waiting = len(
+                    study.get_trials(deepcopy=False, states=(optuna.trial.TrialState.WAITING,))
+                )
+                if waiting:
+                    _run_trials(
+                        study, problem, min(trials, _finished(study) + waiting), bar, guard=guard
+                    )
+                # then every worker is a process of its own; this one watches the storage
+                ctx = mp.get_context("spawn")
+                for i in range(workers if not guard.requested else 0):
+                    pr = ctx.Process(
+                        target=_worker,
+                        daemon=True,
+                        args=(problem, url, study_name, sampler, seed + i, trials),
+                    )
+                    pr.start()
+                    procs.append(pr)
+                told = False
+                while any(pr.is_alive() for pr in procs):
+                    time.sleep(0.5)
+                    if guard.requested and not told:  # pass Ctrl-C on to our workers
+                        for pr in procs:
+                            if pr.is_alive() and pr.pid is not None:
+                                os.kill(pr.pid, signal.SIGINT)
+                        told = True
+                    if bar is not None:
+                        bar.n = min(_finished(study), trials)
+                        best = _best_value(study)
+                        if best is not None:
+                            bar.set_postfix_str(f"best {100 * best:.3f} %", refresh=False)
+                        bar.refresh()
+                for pr in procs:
+                    pr.join()
+                if not guard.requested and any(pr.exitcode != 0 for pr in procs):
+                    raise RuntimeError("a search worker process failed; see its message above")
+            else:
+                _run_trials(study, problem, trials, bar, guard=guard)
+        interrupted = guard.requested
+    except KeyboardInterrupt:  # a second Ctrl-C
         for pr in procs:
             if pr.is_alive():
                 pr.terminate()
                 pr.join(5)
-        if bar is not None:
-            bar.close()
-        print(
-            f"\ninterrupted: {_finished(study)} trials are stored in {url or 'memory'} "
-            f"(study {study_name!r}). Resume with:\n  {resume_command}",
-            file=sys.stderr,
-        )
-        raise SearchInterrupted(resume_command) from None
+        interrupted = True
     finally:
         if bar is not None:
             bar.close()
+    if interrupted:
+        try:
+            done = f"{_finished(study)} trials are"
+        except Exception:  # noqa: BLE001 - the count is only informative
+            done = "the completed trials are"
+        print(
+            f"\ninterrupted: {done} stored in {url or 'memory'} (study {study_name!r}). "
+            f"Resume with:\n  {resume_command}",
+            file=sys.stderr,
+        )
+        raise SearchInterrupted(resume_command)
 
     # 3. polish the best distinct basins of the Sobol candidates and the trials
     all_trials = study.get_trials(deepcopy=False)
