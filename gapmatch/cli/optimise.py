@@ -1,0 +1,254 @@
+"""``gapmatch optimise``: the best band gaps of a stack under constraints."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from ..core.connections import CONNECTIONS
+from ..errors import InputError
+from ..io.atomic import write_atomic
+from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise
+from ..search.runner import DEFAULT_STORAGE, shell_join
+from .options import add_condition_options, condition_kwargs
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "optimise",
+        help="search the best band gaps of a 2-6 junction stack (detailed-balance limit)",
+        description="Global search for the band gaps that maximise the detailed-balance "
+        "efficiency of a stack under gap windows, fixed gaps, a minimum spacing and an "
+        "optional photocurrent-mismatch limit; reports the best stack and distinct "
+        "alternative optima. Trials are stored (SQLite by default) and the study can be "
+        "resumed. Theoretical limits, not ratings.",
+    )
+    p.add_argument(
+        "--junctions", type=int, required=True, metavar="N", help="number of junctions, 2-6"
+    )
+    p.add_argument(
+        "--connection",
+        default="series",
+        choices=CONNECTIONS,
+        help="series (two-terminal), independent (multi-terminal) or "
+        "voltage-matched (default series)",
+    )
+    p.add_argument(
+        "--cells-per-string",
+        type=int,
+        nargs="+",
+        metavar="N",
+        help="voltage-matched only: cells per string for each junction, top first",
+    )
+    g = p.add_argument_group("variables and constraints")
+    g.add_argument(
+        "--bounds",
+        nargs="+",
+        metavar="LO:HI",
+        help="gap window [eV]: one LO:HI for every junction, or one per junction "
+        "top first (use '-' for a junction given by --fix); default 0.5:3.0",
+    )
+    g.add_argument(
+        "--fix",
+        nargs="+",
+        metavar="J=EV",
+        default=[],
+        help="fix junction J (1 = top, or 'bottom') at a gap [eV], e.g. --fix bottom=1.12",
+    )
+    g.add_argument(
+        "--min-spacing",
+        type=float,
+        default=0.05,
+        metavar="EV",
+        help="smallest difference between neighbouring gaps [eV], 0-1 (default 0.05)",
+    )
+    g.add_argument(
+        "--min-mismatch-ratio",
+        type=float,
+        metavar="R",
+        help="smallest allowed min/max junction photocurrent ratio, (0, 1], e.g. 0.95",
+    )
+    g.add_argument(
+        "--robustness",
+        type=float,
+        nargs="?",
+        const=0.02,
+        metavar="DELTA_EV",
+        help="add a second objective: worst efficiency when every free gap moves "
+        "by up to +/- DELTA [eV] (default 0.02 when given without a value); "
+        "reports the Pareto front",
+    )
+    s = p.add_argument_group("search")
+    s.add_argument(
+        "--trials",
+        type=int,
+        metavar="N",
+        help="total optuna trials of the study (default 20 + 5 per free gap, "
+        "doubled with --robustness); a resumed study runs only the missing ones",
+    )
+    s.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    s.add_argument(
+        "--workers",
+        type=int,
+        default=1,
+        metavar="N",
+        help="processes sharing the storage (default 1)",
+    )
+    s.add_argument(
+        "--sampler",
+        default="tpe",
+        choices=SAMPLERS,
+        help="optuna sampler of the trial stage (default tpe)",
+    )
+    s.add_argument(
+        "--storage",
+        metavar="URL_OR_PATH",
+        help=f"SQLite file or optuna database URL, e.g. postgresql://user@host/db "
+        f"(default {DEFAULT_STORAGE}); ':memory:' keeps nothing",
+    )
+    s.add_argument(
+        "--study-name",
+        metavar="NAME",
+        help="study to create or resume (default: derived from the problem)",
+    )
+    s.add_argument("--csv", metavar="PATH", help="write every trial to this CSV file")
+    s.add_argument("--no-progress", action="store_true", help="no progress bar")
+    add_condition_options(p)
+    p.add_argument(
+        "--json",
+        action="store_true",
+        help="print one JSON object: the best stack's full evaluation (the keys "
+        "of 'gapmatch evaluate --json') plus 'alternatives' and 'search'",
+    )
+    p.set_defaults(func=run)
+
+
+def _fixed(items: list[str], n: int) -> dict[int, float]:
+    out: dict[int, float] = {}
+    for it in items:
+        key, sep, val = it.partition("=")
+        if not sep:
+            raise InputError("--fix", "needs J=EV, e.g. 2=1.12 or bottom=1.12", it)
+        key = key.strip().lower()
+        j = n if key == "bottom" else 1 if key == "top" else None
+        if j is None:
+            try:
+                j = int(key)
+            except ValueError:
+                raise InputError(
+                    "--fix", "junction must be a number (1 = top), 'top' or 'bottom'", it
+                ) from None
+        try:
+            out[j] = float(val)
+        except ValueError:
+            raise InputError("--fix", "gap must be a number [eV]", it) from None
+    return out
+
+
+def _bounds(items: list[str] | None, n: int):
+    if not items:
+        return None
+    wins = []
+    for it in items:
+        if it.strip() == "-":
+            wins.append((0.5, 3.0))
+            continue
+        lo, sep, hi = it.partition(":")
+        try:
+            wins.append((float(lo), float(hi)))
+        except ValueError:
+            raise InputError("--bounds", "needs LO:HI in eV, e.g. 1.5:2.2", it) from None
+        if not sep:
+            raise InputError("--bounds", "needs LO:HI in eV, e.g. 1.5:2.2", it)
+    if len(wins) == 1:
+        return wins[0]
+    return wins
+
+
+def run(args: argparse.Namespace) -> int:
+    n = args.junctions
+    cond = condition_kwargs(args)
+    if args.cells_per_string is not None:
+        cond["cells_per_string"] = args.cells_per_string
+    if not isinstance(n, int) or not 2 <= n <= 6:
+        raise InputError("--junctions", "must be a whole number from 2 to 6", n)
+    problem = make_problem(
+        n,
+        args.connection,
+        bounds_eV=_bounds(args.bounds, n),
+        fixed_eV=_fixed(args.fix, n) or None,
+        min_spacing_eV=args.min_spacing,
+        min_mismatch_ratio=args.min_mismatch_ratio,
+        robustness_eV=args.robustness,
+        **cond,
+    )
+    study_name = args.study_name or problem.default_study_name()
+    argv = ["gapmatch", *sys.argv[1:]] if sys.argv and "gapmatch" in sys.argv[0] else None
+    resume = shell_join(
+        (argv or ["gapmatch", "optimise", "..."])
+        + ([] if args.study_name else ["--study-name", study_name])
+    )
+    try:
+        res = optimise(
+            problem,
+            trials=args.trials,
+            seed=args.seed,
+            storage=args.storage,
+            study_name=study_name,
+            workers=args.workers,
+            sampler=args.sampler,
+            progress=not args.no_progress,
+            resume_command=resume,
+        )
+    except SearchInterrupted:
+        return 130
+    if args.csv:
+        write_atomic(args.csv, res.to_frame().to_csv(index=False))
+    if args.json:
+        # stdout: exactly the keys of 'gapmatch evaluate --json' plus 'alternatives';
+        # where the study lives goes to stderr
+        out = res.to_dict()
+        meta = out.pop("search")
+        out.pop("robust_optima", None)
+        print(json.dumps(out, indent=2))
+        print(
+            f"study {meta['study_name']!r} in {meta['storage']}: {meta['trials']} trials"
+            f"{' (resumed)' if meta['resumed'] else ''}, seed {meta['seed']}, "
+            f"{meta['elapsed_s']:.1f} s",
+            file=sys.stderr,
+        )
+        return 0
+    print(format_summary(res))
+    return 0
+
+
+def format_summary(res) -> str:
+    """Readable text summary of a search (units in every header)."""
+    d = res.best
+    lines = [
+        f"Best {res.problem.n_junctions}-junction stack, {d['connection']} connection: "
+        f"{' / '.join(f'{g:.4f}' for g in d['gaps_eV'])} eV, "
+        f"efficiency {d['efficiency_pct']:.3f} %",
+        f"Spectrum: {d['conditions']['spectrum']}",
+        f"Study {res.study_name!r} in {res.storage}: {res.n_trials} trials"
+        f"{' (resumed)' if res.resumed else ''}, seed {res.seed}, {res.elapsed_s:.1f} s; "
+        f"polished to a local maximum{' (certified at 1e-4 eV)' if res.certified else ''}",
+    ]
+    if res.alternatives:
+        lines += ["", f"{'rank':>4} {'gaps [eV], top first':<44} {'efficiency [%]':>14}"]
+        for i, a in enumerate(res.alternatives):
+            gaps = " / ".join(f"{g:.3f}" for g in a["gaps_eV"])
+            lines.append(f"{i + 2:>4} {gaps:<44} {100 * a['efficiency']:14.3f}")
+    if res.robust_optima:
+        lines += ["", "Most robust stacks (worst case within the tolerance):"]
+        for r in res.robust_optima:
+            gaps = " / ".join(f"{g:.3f}" for g in r["gaps_eV"])
+            lines.append(
+                f"     {gaps:<44} {100 * r['efficiency']:8.3f} % "
+                f"(worst {100 * r['worst_efficiency']:.3f} %)"
+            )
+    lines.append(
+        "Detailed-balance limit under ideal assumptions: a theoretical ceiling, not a rating."
+    )
+    return "\n".join(lines)
