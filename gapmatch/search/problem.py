@@ -324,8 +324,10 @@ class SearchProblem:
         return offs
 
     def full_evaluation(self, gaps_eV) -> dict:  # noqa: N803
-        """The checked evaluation of one stack: exactly ``BatchResult.stack(0)``."""
-        return evaluate(list(map(float, gaps_eV)), self.connection, **self.conditions).stack(0)
+        """The checked evaluation of one stack, with its loss breakdown: exactly what
+        ``gapmatch evaluate --json`` prints for it (``BatchResult.stack(0)``)."""
+        gaps = list(map(float, gaps_eV))
+        return evaluate(gaps, self.connection, losses=True, **self.conditions).stack(0)
 
     # ---- identity ----------------------------------------------------------------------
     def describe(self) -> dict:
