@@ -49,6 +49,8 @@ __all__ = [
     "parse_study",
     "register_table",
     "STUDY_SCHEMA",
+    "SEARCH_TABLE",
+    "THICKNESS_TABLE",
     "Table",
     "Num",
     "Int",
@@ -441,6 +443,46 @@ def register_table(name: str, table: Table) -> None:
         raise ValueError(f"study table {name!r} already exists")
     STUDY_SCHEMA.fields[name] = table
     EXTRA_TABLES[name] = table
+
+
+#: ``[search]``: the band-gap search a study runs (see :mod:`gapmatch.search.study_table`)
+SEARCH_TABLE = Table(
+    {
+        "junctions": Int(2, MAX_JUNCTIONS, default=2, doc="junctions per stack"),
+        "connection": Choice(CONNECTIONS, default="series"),
+        "materials": List(
+            Str(min_len=1, max_len=200),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="per junction, top first: a [[materials]] name or 'any'",
+        ),
+        "bounds_eV": List(
+            Num(*GAP_RANGE_EV, "eV"), min_len=2, max_len=2, default=lambda: [0.5, 3.0]
+        ),
+        "min_spacing_eV": Num(0.0, 1.0, "eV", default=0.05),
+        "min_mismatch_ratio": Num(0.0, 1.0, default=0.0, doc="0: no mismatch constraint"),
+        "trials": Int(0, 100_000, default=0, doc="0: the default trial count"),
+        "seed": Int(0, 2**31 - 1, default=0),
+    },
+    default=dict,
+)
+
+#: ``[thickness]``: efficiency versus one absorber's thickness (report section)
+THICKNESS_TABLE = Table(
+    {
+        "stack": Str(default="", doc="a stack of interest (default: the first)"),
+        "junction": Int(1, MAX_JUNCTIONS, default=1, doc="1 = top"),
+        "connection": Choice(CONNECTIONS, default="series"),
+        "absorber": Choice(("direct", "indirect"), default="direct"),
+        "light_trapping": Choice(("single", "double", "lambertian"), default="single"),
+        "range_nm": List(Num(1.0, 1e8, "nm"), min_len=2, max_len=2, default=lambda: [30.0, 3000.0]),
+        "points": Int(5, 200, default=40),
+    },
+    default=dict,
+)
+
+register_table("search", SEARCH_TABLE)
+register_table("thickness", THICKNESS_TABLE)
 
 
 # ---- the validated study ---------------------------------------------------------------------

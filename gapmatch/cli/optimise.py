@@ -25,7 +25,16 @@ def register(sub) -> None:
         "resumed. Theoretical limits, not ratings.",
     )
     p.add_argument(
-        "--junctions", type=int, required=True, metavar="N", help="number of junctions, 2-6"
+        "--junctions",
+        type=int,
+        metavar="N",
+        help="number of junctions, 2-6 (required unless --study is given)",
+    )
+    p.add_argument(
+        "--study",
+        metavar="TOML",
+        help="run the search a study file describes ([search] table, with the study's "
+        "spectrum, conditions and materials); --trials and --seed override the file",
     )
     p.add_argument(
         "--connection",
@@ -87,7 +96,7 @@ def register(sub) -> None:
         help="total optuna trials of the study (default 20 + 5 per free gap, "
         "doubled with --robustness); a resumed study runs only the missing ones",
     )
-    s.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    s.add_argument("--seed", type=int, default=None, help="random seed (default 0)")
     s.add_argument(
         "--workers",
         type=int,
@@ -166,8 +175,21 @@ def _bounds(items: list[str] | None, n: int):
     return wins
 
 
-def run(args: argparse.Namespace) -> int:
+def _problem_from_args(args: argparse.Namespace):
+    """The search problem and its default trials and seed, from a study or the options."""
+    if args.study:
+        from ..search.study_table import problem_from_study, search_settings
+        from ..study import load_study
+
+        study = load_study(args.study)
+        cfg = search_settings(study)
+        return problem_from_study(study), cfg["trials"] or None, cfg["seed"]
     n = args.junctions
+    if n is None:
+        raise InputError(
+            "--junctions",
+            "is required (a whole number from 2 to 6) unless --study names a study file",
+        )
     cond = condition_kwargs(args)
     if args.cells_per_string is not None:
         cond["cells_per_string"] = args.cells_per_string
@@ -183,6 +205,13 @@ def run(args: argparse.Namespace) -> int:
         robustness_eV=args.robustness,
         **cond,
     )
+    return problem, None, 0
+
+
+def run(args: argparse.Namespace) -> int:
+    problem, default_trials, default_seed = _problem_from_args(args)
+    trials = args.trials if args.trials is not None else default_trials
+    seed = args.seed if args.seed is not None else default_seed
     study_name = args.study_name or problem.default_study_name()
     argv = ["gapmatch", *sys.argv[1:]] if sys.argv and "gapmatch" in sys.argv[0] else None
     resume = shell_join(
@@ -192,8 +221,8 @@ def run(args: argparse.Namespace) -> int:
     try:
         res = optimise(
             problem,
-            trials=args.trials,
-            seed=args.seed,
+            trials=trials,
+            seed=seed,
             storage=args.storage,
             study_name=study_name,
             workers=args.workers,

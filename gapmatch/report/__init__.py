@@ -8,7 +8,7 @@ section registry and :mod:`gapmatch.report.figures` for the figures).
 
 from __future__ import annotations
 
-from . import physics_sections  # noqa: F401  (registers the loss and thickness sections)
+from . import physics_sections, search_section  # noqa: F401  (register their sections)
 from .builder import Report, build_report, render_page, write_report
 from .sections import (
     SECTIONS,

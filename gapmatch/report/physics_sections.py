@@ -25,29 +25,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..api import evaluate
-from ..core.connections import CONNECTIONS
 from ..errors import InputError
 from ..report_figures_losses import loss_breakdown_figure, thickness_figure
-from ..study import Choice, Int, List, Num, Str, Table, register_table
 from .sections import SectionOutput, para, register_section, table
-
-register_table(
-    "thickness",
-    Table(
-        {
-            "stack": Str(default="", doc="name of a stack of interest (default: the first)"),
-            "junction": Int(1, 6, default=1, doc="junction whose thickness varies, 1 = top"),
-            "connection": Choice(CONNECTIONS, default="series"),
-            "absorber": Choice(("direct", "indirect"), default="direct"),
-            "light_trapping": Choice(("single", "double", "lambertian"), default="single"),
-            "range_nm": List(
-                Num(1.0, 1e8, "nm"), min_len=2, max_len=2, default=lambda: [30.0, 3000.0]
-            ),
-            "points": Int(5, 200, default=40),
-        },
-        default=dict,
-    ),
-)
 
 
 def _loss_results(ctx):

@@ -1,0 +1,124 @@
+"""Report section for the band-gap search a study file describes (``[search]``).
+
+The search runs in memory (no storage file) with the study's seed, so a report is
+reproducible; ``gapmatch optimise --study FILE`` runs the same search with persistent,
+resumable storage and parallel workers.
+"""
+
+from __future__ import annotations
+
+from ..search import constraint_costs, optimise
+from ..search.figures import (
+    constraint_cost_figure,
+    constraint_cost_table,
+    history_figure,
+    optima_table,
+    parallel_coordinates_figure,
+)
+from ..search.study_table import problem_from_study, search_settings
+from .sections import SectionOutput, para, register_section, table
+
+
+@register_section("search", "Band-gap search", default=False)
+def search_section(ctx) -> SectionOutput:
+    """Best stack, distinct alternatives, history, trials and constraint costs."""
+    cfg = search_settings(ctx.study)
+    problem = problem_from_study(ctx.study)
+
+    def run():
+        return optimise(
+            problem,
+            trials=cfg["trials"] or None,
+            seed=cfg["seed"],
+            storage=":memory:",
+            progress=False,
+        )
+
+    res = ctx.get("search", run)
+    costs = constraint_costs(problem, res.best_gaps_eV, res.best_value, seed=cfg["seed"])
+    best = res.best
+    n = problem.n_junctions
+    opt = optima_table(res)
+    gap_cols = [c for c in opt.columns if c.startswith("gap_")]
+    value_col = next(c for c in opt.columns if c.endswith("_pct") and c != "delta_pct")
+    rows = [
+        [
+            int(r["rank"]),
+            " / ".join(f"{r[c]:.4f}" for c in gap_cols),
+            f"{r[value_col]:.3f}",
+            f"{r['delta_pct']:.3f}",
+            "yes" if r["certified"] else "no",
+        ]
+        for _, r in opt.iterrows()
+    ]
+    blocks = [
+        para(
+            f"Search over the gaps of a {n}-junction stack, {problem.connection} connection, "
+            f"under the study's spectrum and cell conditions: a quasi-random (Sobol) batch "
+            f"through the batch evaluator, {res.n_trials} optuna trials ({res.sampler}, seed "
+            f"{res.seed}), then an exact local polish of the best distinct basins (gaps to "
+            f"1e-4 eV). Constraints: minimum spacing {problem.min_spacing_eV:g} eV"
+            + (
+                f", photocurrent ratio >= {problem.min_mismatch_ratio:g}"
+                if problem.min_mismatch_ratio
+                else ""
+            )
+            + "; infeasible trials are kept in the trial table."
+        ),
+        para(
+            f"Best stack: {' / '.join(f'{g:.4f}' for g in best['gaps_eV'])} eV, efficiency "
+            f"{best['efficiency_pct']:.3f} %."
+        ),
+        table(
+            [
+                "rank",
+                "gaps, top first [eV]",
+                "efficiency [%]",
+                "below best [% abs.]",
+                "verified local maximum",
+            ],
+            rows,
+            caption="Best stack and distinct local optima (at least 0.05 eV apart in some gap)",
+            numeric=[True, False, True, True, False],
+        ),
+        history_figure(res),
+        parallel_coordinates_figure(res),
+    ]
+    cost_df = constraint_cost_table(costs)
+    if len(cost_df):
+        blocks.append(
+            table(
+                [
+                    "constraint",
+                    "active",
+                    "with [%]",
+                    "without [%]",
+                    "cost [% abs.]",
+                    "gaps without it [eV]",
+                ],
+                [
+                    [
+                        r["constraint"],
+                        "yes" if r["active"] else "no",
+                        f"{r['with_pct']:.3f}",
+                        f"{r['without_pct']:.3f}",
+                        f"{r['cost_pct']:.3f}",
+                        r["gaps_without_eV"],
+                    ]
+                    for _, r in cost_df.iterrows()
+                ],
+                caption="What each constraint costs: the optimum with and without it",
+                numeric=[False, False, True, True, True, False],
+            )
+        )
+        blocks.append(constraint_cost_figure(costs))
+    return SectionOutput(
+        blocks=blocks,
+        data={"search_trials.csv": res.to_frame(), "search_optima.csv": opt},
+        summary={
+            "best_gaps_eV": best["gaps_eV"],
+            "best_efficiency": best["efficiency"],
+            "alternatives": res.alternatives,
+            "trials": res.n_trials,
+        },
+    )
