@@ -43,6 +43,8 @@ def test_files_written(demo):
             f"{NAME}_summary.json",
             f"{NAME}_losses_series.csv",
             f"{NAME}_losses_independent.csv",
+            f"{NAME}_search_trials.csv",
+            f"{NAME}_search_optima.csv",
         ]
     )
     assert not [n for n in names if n.endswith(".tmp")]  # atomic writes leave no temporaries
