@@ -325,7 +325,7 @@ def test_validation(kwargs, match):
 
 def test_loss_figures():
     # The report figures are plotly objects built from the same numbers.
-    from gapmatch.report_figures_losses import (
+    from gapmatch.report.loss_figures import (
         junction_loss_figure,
         loss_breakdown_figure,
         thickness_figure,

@@ -26,7 +26,7 @@ import numpy as np
 
 from ..api import evaluate
 from ..errors import InputError
-from ..report_figures_losses import loss_breakdown_figure, thickness_figure
+from .loss_figures import loss_breakdown_figure, thickness_figure
 from .sections import SectionOutput, para, register_section, table
 
 

@@ -19,8 +19,8 @@ import numpy as np
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
-from .api import evaluate_thickness
-from .results import BatchResult
+from ..api import evaluate_thickness
+from ..results import BatchResult
 
 __all__ = [
     "LOSS_COLOURS",
