@@ -148,6 +148,26 @@ class LossTable:
         return out
 
 
+#: readable labels of the loss terms, in display order (tables, figures)
+LOSS_LABELS = {
+    "below_gap": "below-gap transmission",
+    "incomplete_absorption": "incomplete absorption",
+    "thermalisation": "thermalisation",
+    "incomplete_collection": "incomplete collection",
+    "emission": "emission",
+    "nonradiative": "non-radiative recombination",
+    "carnot": "Carnot",
+    "boltzmann": "Boltzmann (etendue)",
+    "voltage_radiative": "voltage, radiative",
+    "voltage_nonradiative": "voltage, non-radiative",
+    "voltage_mpp": "voltage, V_oc to V_mpp",
+    "mismatch": "current mismatch (vs each junction at its own MPP)",
+    "series_resistance": "series resistance",
+    "luminescent_transfer": "luminescent transfer",
+    "output": "delivered power",
+}
+
+
 def _num(x: float) -> float | None:
     x = float(x)
     return None if math.isnan(x) else x

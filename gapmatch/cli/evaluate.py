@@ -8,6 +8,7 @@ import json
 from ..api import evaluate
 from ..core.absorption import ABSORBER_MODELS, LIGHT_TRAPPING
 from ..core.connections import CONNECTIONS
+from ..results import LOSS_LABELS
 from .options import add_condition_options, condition_kwargs
 
 DEMO_STACKS = {
@@ -297,26 +298,6 @@ def format_table(d: dict) -> str:
             "Detailed-balance limit under ideal assumptions: a theoretical ceiling, not a rating."
         )
     return "\n".join(lines)
-
-
-#: readable labels of the loss terms (table output)
-LOSS_LABELS = {
-    "below_gap": "below-gap transmission",
-    "incomplete_absorption": "incomplete absorption",
-    "thermalisation": "thermalisation",
-    "incomplete_collection": "incomplete collection",
-    "emission": "emission",
-    "nonradiative": "non-radiative recombination",
-    "carnot": "Carnot",
-    "boltzmann": "Boltzmann (etendue)",
-    "voltage_radiative": "voltage, radiative (other)",
-    "voltage_nonradiative": "voltage, non-radiative",
-    "voltage_mpp": "voltage, V_oc to V_mpp",
-    "mismatch": "mismatch (vs own MPPs)",
-    "series_resistance": "series resistance",
-    "luminescent_transfer": "luminescent transfer",
-    "output": "delivered (output)",
-}
 
 
 def format_losses(lw: dict) -> list[str]:

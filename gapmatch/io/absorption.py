@@ -9,15 +9,11 @@ References
 
 from __future__ import annotations
 
-import csv
-import math
 from pathlib import Path
 
-import numpy as np
-
 from ..core.absorption import TabulatedAbsorption
-from ..errors import InputError
 from ..units import C, H
+from .tables import read_wavelength_table
 
 __all__ = ["read_alpha_csv"]
 
@@ -46,51 +42,7 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
         zero everywhere.
     """
     p = Path(path)
-    field = f"absorption file {p}"
-    if not p.is_file():
-        raise InputError(field, "file not found")
-    wl: list[float] = []
-    al: list[float] = []
-    rows: list[int] = []
-    with p.open(newline="", encoding="utf-8-sig") as fh:
-        for lineno, row in enumerate(csv.reader(fh), start=1):
-            if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
-                continue
-            if len(row) < 2:
-                raise InputError(
-                    field,
-                    f"row {lineno}: needs two columns, wavelength [nm] and "
-                    "absorption coefficient [cm^-1]",
-                    ",".join(row),
-                )
-            try:
-                a, b = float(row[0]), float(row[1])
-            except ValueError:
-                if not wl:  # header
-                    continue
-                raise InputError(field, f"row {lineno}: not a number", ",".join(row[:2])) from None
-            if not (math.isfinite(a) and math.isfinite(b)):
-                raise InputError(field, f"row {lineno}: values must be finite", ",".join(row[:2]))
-            if a <= 0:
-                raise InputError(field, f"row {lineno}: wavelength must be > 0 nm", a)
-            if b < 0:
-                raise InputError(
-                    field, f"row {lineno}: absorption coefficient must be >= 0 cm^-1", b
-                )
-            if wl and a <= wl[-1]:
-                raise InputError(
-                    field,
-                    f"row {lineno}: wavelengths must be strictly increasing "
-                    f"(previous row {rows[-1]} has {wl[-1]:g} nm)",
-                    a,
-                )
-            wl.append(a)
-            al.append(b)
-            rows.append(lineno)
-    if len(wl) < 2:
-        raise InputError(field, f"needs at least two data rows, found {len(wl)}")
-    if max(al) <= 0:
-        raise InputError(field, "the absorption coefficient is zero everywhere")
-    energy = (H * C / (np.array(wl) * 1e-9))[::-1]
-    alpha = (np.array(al) * 100.0)[::-1]
+    wl, al = read_wavelength_table(p, f"absorption file {p}", "absorption coefficient", "cm^-1")
+    energy = (H * C / (wl * 1e-9))[::-1]
+    alpha = (al * 100.0)[::-1]
     return TabulatedAbsorption(energy, alpha, source=str(p))

@@ -8,15 +8,12 @@ References
 
 from __future__ import annotations
 
-import csv
-import math
 from functools import cache
 from pathlib import Path
 
-import numpy as np
-
 from ..core.spectra import BlackbodySun, Spectrum, TabulatedSpectrum
 from ..errors import InputError
+from .tables import read_wavelength_table
 
 __all__ = [
     "STANDARD_SPECTRA",
@@ -97,52 +94,8 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
         increasing or not positive, negative irradiance.
     """
     p = Path(path)
-    field = f"spectrum file {p}"
-    if not p.is_file():
-        raise InputError(field, "file not found")
-    wl: list[float] = []
-    irr: list[float] = []
-    rows: list[int] = []
-    seen_row = False
-    with p.open(newline="", encoding="utf-8-sig") as fh:
-        for lineno, row in enumerate(csv.reader(fh), start=1):
-            if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
-                continue
-            if len(row) < 2:
-                raise InputError(
-                    field,
-                    f"row {lineno}: needs two columns, wavelength [nm] and "
-                    "irradiance [W m^-2 nm^-1]",
-                    ",".join(row),
-                )
-            first, seen_row = not seen_row, True
-            try:
-                a, b = float(row[0]), float(row[1])
-            except ValueError:
-                if first:  # one header row
-                    continue
-                raise InputError(field, f"row {lineno}: not a number", ",".join(row[:2])) from None
-            if not (math.isfinite(a) and math.isfinite(b)):
-                raise InputError(field, f"row {lineno}: values must be finite", ",".join(row[:2]))
-            if a <= 0:
-                raise InputError(field, f"row {lineno}: wavelength must be > 0 nm", a)
-            if b < 0:
-                raise InputError(field, f"row {lineno}: irradiance must be >= 0 W m^-2 nm^-1", b)
-            if wl and a <= wl[-1]:
-                raise InputError(
-                    field,
-                    f"row {lineno}: wavelengths must be strictly increasing "
-                    f"(previous row {rows[-1]} has {wl[-1]:g} nm)",
-                    a,
-                )
-            wl.append(a)
-            irr.append(b)
-            rows.append(lineno)
-    if len(wl) < 2:
-        raise InputError(field, f"needs at least two data rows, found {len(wl)}")
-    if sum(irr) <= 0:
-        raise InputError(field, "the irradiance is zero everywhere")
-    return TabulatedSpectrum(np.array(wl), np.array(irr), name=name or p.stem, source=str(p))
+    wl, irr = read_wavelength_table(p, f"spectrum file {p}", "irradiance", "W m^-2 nm^-1")
+    return TabulatedSpectrum(wl, irr, name=name or p.stem, source=str(p))
 
 
 def get_spectrum(

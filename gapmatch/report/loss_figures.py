@@ -20,34 +20,14 @@ import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
 from ..api import evaluate_thickness
-from ..results import BatchResult
+from ..results import LOSS_LABELS, BatchResult
 
 __all__ = [
     "LOSS_COLOURS",
-    "LOSS_LABELS",
     "loss_breakdown_figure",
     "junction_loss_figure",
     "thickness_figure",
 ]
-
-#: display labels of the loss terms (units in the axis titles)
-LOSS_LABELS = {
-    "below_gap": "below-gap transmission",
-    "incomplete_absorption": "incomplete absorption",
-    "thermalisation": "thermalisation",
-    "incomplete_collection": "incomplete collection",
-    "emission": "emission",
-    "nonradiative": "non-radiative recombination",
-    "carnot": "Carnot",
-    "boltzmann": "Boltzmann (etendue)",
-    "voltage_radiative": "voltage, radiative",
-    "voltage_nonradiative": "voltage, non-radiative",
-    "voltage_mpp": "voltage, V_oc to V_mpp",
-    "mismatch": "mismatch",
-    "series_resistance": "series resistance",
-    "luminescent_transfer": "luminescent transfer",
-    "output": "delivered power",
-}
 
 #: colours of the loss terms (our own choice: warm for photon losses, cool for voltage
 #: losses, grey for connection losses, green for the output)
