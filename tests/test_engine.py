@@ -290,3 +290,20 @@ def test_jv_curve_endpoints(model):
         assert abs(j[-1]) < 1e-6 * junction["jph_mA_cm2"]  # J(V_oc) = 0
     v, j = c["stack"]
     assert v[0] == pytest.approx(d["voc_V"], rel=1e-12)
+
+
+@pytest.mark.parametrize("threads", [1, 3])
+def test_threads_argument_is_honoured(monkeypatch, am15g, threads):
+    import gapmatch.core.engine as eng
+
+    seen = []
+    real = eng.ThreadPoolExecutor
+
+    def spy(max_workers):
+        seen.append(max_workers)
+        return real(max_workers=max_workers)
+
+    monkeypatch.setattr(eng, "ThreadPoolExecutor", spy)
+    g = np.tile([1.7, 1.1], (5000, 1)) * EV
+    eng.solve_stacks(g, am15g, "series", threads=threads, chunk=1000)
+    assert seen == [threads]

@@ -161,7 +161,7 @@ def solve_stacks(
         vm_max_cells=vm_max_cells,
     )
     m = gaps.shape[0]
-    threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
+    threads = (os.cpu_count() or 1) if threads is None else max(1, int(threads))
     if m <= chunk or threads == 1 and m <= 4 * chunk:
         return _solve(gaps, spectrum, connection, **kw)
     shape = gaps.shape
@@ -378,7 +378,7 @@ def solve_stacks_nonideal(
         )
 
     starts = list(range(0, m, chunk))
-    threads = os.cpu_count() or 1 if threads is None else max(1, int(threads))
+    threads = (os.cpu_count() or 1) if threads is None else max(1, int(threads))
     if len(starts) == 1 or threads == 1:
         parts = [part(s0) for s0 in starts]
     else:  # numpy releases the GIL in its loops; results do not depend on threads
