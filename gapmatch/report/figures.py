@@ -96,6 +96,50 @@ def _levels(zmin: float, zmax: float) -> tuple[float, float, float]:
     return float(start), float(zmax), size
 
 
+def _map_contour(
+    m: MapResult,
+    z: np.ndarray,
+    *,
+    levels: tuple[float, float, float],
+    label_format: str,
+    line_colour: str,
+    hover_value: str,
+    extra_name: str = "",
+    **trace,
+) -> go.Contour:
+    """A filled map with labelled contour lines over the map's axes (hover with units)."""
+    start, end, size = levels
+    return go.Contour(
+        x=m.x_eV,
+        y=m.y_eV,
+        z=z,
+        contours=dict(
+            coloring="heatmap",
+            showlabels=True,
+            start=start,
+            end=end,
+            size=size,
+            labelfont=dict(size=11, color="white"),
+            labelformat=label_format,
+        ),
+        line=dict(width=0.8, color=line_colour),
+        hovertemplate=(
+            f"{m.axis_label(0)} %{{x:.3f}} eV<br>{m.axis_label(1)} %{{y:.3f}} eV"
+            f"<br>{hover_value}<extra>{extra_name}</extra>"
+        ),
+        **trace,
+    )
+
+
+def _square_map_axes(fig: go.Figure, m: MapResult, x_range, y_range, **y_extra) -> None:
+    """Both gap axes titled, over the given ranges [eV], with equal scales."""
+    xt, yt = _axis_titles(m)
+    fig.update_xaxes(title=xt, range=x_range, showgrid=False, constrain="domain")
+    fig.update_yaxes(
+        title=yt, range=y_range, showgrid=False, scaleanchor="x", constrain="domain", **y_extra
+    )
+
+
 def map_figure(
     m: MapResult,
     connection: str,
@@ -133,34 +177,22 @@ def map_figure(
     keep = m.descending
     zmax = float(np.nanmax(np.where(keep, eff, np.nan)))
     zmin = max(0.0, float(np.nanmin(np.where(keep, eff, np.nan))))
-    start, end, size = _levels(zmin, zmax)
-    xt, yt = _axis_titles(m)
     fig = go.Figure()
     fig.add_trace(
-        go.Contour(
-            x=m.x_eV,
-            y=m.y_eV,
-            z=_grid_z(eff, keep, 2),
+        _map_contour(
+            m,
+            _grid_z(eff, keep, 2),
+            levels=_levels(zmin, zmax),
+            label_format=".0f",
+            line_colour="rgba(255,255,255,0.75)",
+            hover_value="efficiency %{z:.2f} %",
+            extra_name=connection,
             name=f"{connection} efficiency",
             colorscale="Cividis",
             zmin=zmin,
             zmax=zmax,
             connectgaps=False,
-            contours=dict(
-                coloring="heatmap",
-                showlabels=True,
-                start=start,
-                end=end,
-                size=size,
-                labelfont=dict(size=11, color="white"),
-                labelformat=".0f",
-            ),
-            line=dict(width=0.8, color="rgba(255,255,255,0.75)"),
             colorbar=dict(title=dict(text="efficiency [%]", side="right"), ticksuffix=" %"),
-            hovertemplate=(
-                f"{m.axis_label(0)} %{{x:.3f}} eV<br>{m.axis_label(1)} %{{y:.3f}} eV"
-                f"<br>efficiency %{{z:.2f}} %<extra>{connection}</extra>"
-            ),
         )
     )
     if window is not None and window.points:
@@ -294,10 +326,7 @@ def map_figure(
         arrowwidth=1.5,
     )
     _base_layout(fig, title or f"{connection} connection", height=640)
-    fig.update_xaxes(title=xt, range=[x0, x1], showgrid=False, constrain="domain")
-    fig.update_yaxes(
-        title=yt, range=[y0, y1], showgrid=False, scaleanchor="x", scaleratio=1, constrain="domain"
-    )
+    _square_map_axes(fig, m, [x0, x1], [y0, y1], scaleratio=1)
     fig.update_layout(legend=dict(orientation="h", y=-0.14, x=0))
     return fig
 
@@ -308,38 +337,22 @@ def difference_figure(m: MapResult, a: str = "independent", b: str = "series") -
     keep = m.descending
     dk = np.where(keep, d, np.nan)
     lo, hi = float(np.nanmin(dk)), float(np.nanmax(dk))
-    start, end, size = _levels(max(lo, 0.0), hi)
-    xt, yt = _axis_titles(m)
     fig = go.Figure(
-        go.Contour(
-            x=m.x_eV,
-            y=m.y_eV,
-            z=_grid_z(d, keep, 2),
+        _map_contour(
+            m,
+            _grid_z(d, keep, 2),
+            levels=_levels(max(lo, 0.0), hi),
+            label_format=".0f",
+            line_colour="rgba(255,255,255,0.7)",
+            hover_value=f"{a} − {b}: %{{z:.2f}} % (absolute)",
             colorscale="Viridis",
             zmin=lo,
             zmax=hi,
-            contours=dict(
-                coloring="heatmap",
-                showlabels=True,
-                start=start,
-                end=end,
-                size=size,
-                labelfont=dict(size=11, color="white"),
-                labelformat=".0f",
-            ),
-            line=dict(width=0.8, color="rgba(255,255,255,0.7)"),
             colorbar=dict(title=dict(text=f"{a} − {b} [% abs.]", side="right")),
-            hovertemplate=(
-                f"{m.axis_label(0)} %{{x:.3f}} eV<br>{m.axis_label(1)} %{{y:.3f}} eV"
-                f"<br>{a} − {b}: %{{z:.2f}} % (absolute)<extra></extra>"
-            ),
         )
     )
     _base_layout(fig, f"{a} minus {b} connection", height=600)
-    fig.update_xaxes(title=xt, range=[m.x_eV[0], m.x_eV[-1]], showgrid=False, constrain="domain")
-    fig.update_yaxes(
-        title=yt, range=[m.y_eV[0], m.y_eV[-1]], showgrid=False, scaleanchor="x", constrain="domain"
-    )
+    _square_map_axes(fig, m, [m.x_eV[0], m.x_eV[-1]], [m.y_eV[0], m.y_eV[-1]])
     return fig
 
 
@@ -364,31 +377,19 @@ def mismatch_figure(m: MapResult, connection: str = "series") -> go.Figure:
     of the two axis junctions."""
     r = m.mismatch_ratio(connection)
     keep = m.descending
-    xt, yt = _axis_titles(m)
     fig = go.Figure(
-        go.Contour(
-            x=m.x_eV,
-            y=m.y_eV,
-            z=_grid_z(r, keep, 3),
+        _map_contour(
+            m,
+            _grid_z(r, keep, 3),
+            levels=(0.1, 0.9, 0.1),
+            label_format=".1f",
+            line_colour="rgba(255,255,255,0.7)",
+            hover_value="J<sub>ph,min</sub>/J<sub>ph,max</sub> %{z:.3f}",
             colorscale="Cividis",
             zmin=0,
             zmax=1,
-            contours=dict(
-                coloring="heatmap",
-                showlabels=True,
-                start=0.1,
-                end=0.9,
-                size=0.1,
-                labelfont=dict(size=11, color="white"),
-                labelformat=".1f",
-            ),
-            line=dict(width=0.8, color="rgba(255,255,255,0.7)"),
             colorbar=dict(
                 title=dict(text="J<sub>ph,min</sub> / J<sub>ph,max</sub> [-]", side="right")
-            ),
-            hovertemplate=(
-                f"{m.axis_label(0)} %{{x:.3f}} eV<br>{m.axis_label(1)} %{{y:.3f}} eV"
-                "<br>J<sub>ph,min</sub>/J<sub>ph,max</sub> %{z:.3f}<extra></extra>"
             ),
         )
     )
@@ -404,10 +405,7 @@ def mismatch_figure(m: MapResult, connection: str = "series") -> go.Figure:
         )
     )
     _base_layout(fig, f"photocurrent mismatch, {connection} connection", height=600)
-    fig.update_xaxes(title=xt, range=[m.x_eV[0], m.x_eV[-1]], showgrid=False, constrain="domain")
-    fig.update_yaxes(
-        title=yt, range=[m.y_eV[0], m.y_eV[-1]], showgrid=False, scaleanchor="x", constrain="domain"
-    )
+    _square_map_axes(fig, m, [m.x_eV[0], m.x_eV[-1]], [m.y_eV[0], m.y_eV[-1]])
     fig.update_layout(legend=dict(orientation="h", y=-0.14, x=0))
     return fig
 
