@@ -28,6 +28,7 @@ __all__ = [
     "evaluate",
     "evaluate_thickness",
     "check_gaps",
+    "check_cell_conditions",
     "jv_curve",
 ]
 
@@ -372,6 +373,37 @@ def _build_device(
     return device, physics
 
 
+def check_cell_conditions(n: int, temperature_K, ere, dark_current: str):  # noqa: N803
+    """Validate the cell conditions of ``n``-junction stacks.
+
+    Parameters
+    ----------
+    n : int
+        Junctions per stack.
+    temperature_K : float or array_like
+        Cell temperature [K], 100-1000, scalar or one per junction.
+    ere : float or array_like
+        External radiative efficiency in (0, 1], scalar or one per junction.
+    dark_current : str
+        One of ``DARK_MODELS``.
+
+    Returns
+    -------
+    tuple
+        ``(temperature_K, ere)`` as floats or per-junction arrays.
+
+    Raises
+    ------
+    InputError
+        Naming the field and its allowed range.
+    """
+    if dark_current not in DARK_MODELS:
+        raise InputError("dark_current", f"must be one of {', '.join(DARK_MODELS)}", dark_current)
+    t = _per_junction("temperature_K", temperature_K, n, *TEMPERATURE_RANGE_K, "K")
+    e = _per_junction("ere", ere, n, 0.0, 1.0, "", low_inclusive=False)
+    return t, e
+
+
 def evaluate(
     gaps_eV,  # noqa: N803
     connection: str = "series",
@@ -505,10 +537,7 @@ def evaluate(
     n = g.shape[1]
     if connection not in CONNECTIONS:
         raise InputError("connection", f"must be one of {', '.join(CONNECTIONS)}", connection)
-    if dark_current not in DARK_MODELS:
-        raise InputError("dark_current", f"must be one of {', '.join(DARK_MODELS)}", dark_current)
-    t = _per_junction("temperature_K", temperature_K, n, *TEMPERATURE_RANGE_K, "K")
-    e = _per_junction("ere", ere, n, 0.0, 1.0, "", low_inclusive=False)
+    t, e = check_cell_conditions(n, temperature_K, ere, dark_current)
     ratio = None
     if cells_per_string is not None:
         if connection != "voltage-matched":

@@ -41,9 +41,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .api import GAP_RANGE_EV, MAX_JUNCTIONS, TEMPERATURE_RANGE_K, _per_junction, check_gaps
+from .api import GAP_RANGE_EV, MAX_JUNCTIONS, check_cell_conditions, check_gaps
 from .core.connections import CONNECTIONS
-from .core.diodes import DARK_MODELS
 from .core.engine import solve_stacks
 from .core.spectra import Spectrum
 from .errors import InputError, check_range
@@ -462,10 +461,7 @@ class CutResult:
 
 # ---- computation ---------------------------------------------------------------------------
 def _conditions(n: int, spectrum, temperature_K, ere, dark_current, spectrum_kw):  # noqa: N803
-    if dark_current not in DARK_MODELS:
-        raise InputError("dark_current", f"must be one of {', '.join(DARK_MODELS)}", dark_current)
-    t = _per_junction("temperature_K", temperature_K, n, *TEMPERATURE_RANGE_K, "K")
-    e = _per_junction("ere", ere, n, 0.0, 1.0, "", low_inclusive=False)
+    t, e = check_cell_conditions(n, temperature_K, ere, dark_current)
     spec = get_spectrum(spectrum, **spectrum_kw)
     cond = Conditions(
         spectrum=spec.describe(),

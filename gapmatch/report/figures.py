@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import html
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 import plotly.graph_objects as go
@@ -57,8 +58,8 @@ _JUNCTION_FILL = [
 ]
 
 
-def esc(s: str) -> str:
-    """HTML-escape a user string for plotly labels."""
+def esc(s: Any) -> str:
+    """HTML-escape any user value (page text and plotly labels)."""
     return html.escape(str(s), quote=True)
 
 

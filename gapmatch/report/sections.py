@@ -26,7 +26,6 @@ and import that module in :mod:`gapmatch.report` so the registration runs.
 
 from __future__ import annotations
 
-import html
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -40,6 +39,7 @@ from ..maps import CutResult, MapResult, compute_cut, compute_map
 from ..results import BatchResult, Conditions
 from ..study import Study
 from . import figures as figs
+from .figures import esc
 
 __all__ = [
     "SECTIONS",
@@ -53,11 +53,6 @@ __all__ = [
     "para",
     "table",
 ]
-
-
-def esc(s: Any) -> str:
-    """HTML-escape any user value for the page."""
-    return html.escape(str(s), quote=True)
 
 
 @dataclass
