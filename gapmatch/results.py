@@ -12,7 +12,7 @@ Column and key names carry their unit as a suffix: ``_eV``, ``_V``, ``_mA_cm2``,
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -197,7 +197,6 @@ class BatchResult:
     solution: StackSolution
     conditions: Conditions
     input_gaps_eV: np.ndarray | None = None  # noqa: N815 - the gaps as given, for display
-    _cache: dict = field(default_factory=dict, repr=False)
 
     # ---- arrays (SI unless the name says otherwise) -----------------------------------
     def __len__(self) -> int:

@@ -58,8 +58,8 @@ class OperatingPoint:
 
     All arrays are SI. Stack-level quantities have shape ``(M,)``; per-junction ones
     ``(M, N)``. For independent connection the stack has no single terminal pair, so
-    ``v_mpp``, ``j_mpp``, ``voc``, ``jsc`` are NaN there and ``ff`` is the power-weighted
-    ratio ``P / sum(Voc_i Jsc_i)``.
+    ``v_mpp``, ``j_mpp``, ``voc``, ``jsc`` are NaN there (see
+    :attr:`gapmatch.results.BatchResult.ff` for the fill factor).
     """
 
     p_mpp: np.ndarray  #: power density [W m^-2]
@@ -75,12 +75,6 @@ class OperatingPoint:
     def p_junction(self) -> np.ndarray:
         """Power density delivered by each junction [W m^-2]."""
         return self.v_junction * self.j_junction
-
-    @property
-    def ff(self) -> np.ndarray:
-        """Fill factor ``P / (Voc Jsc)`` (dimensionless)."""
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return np.where(self.voc * self.jsc > 0, self.p_mpp / (self.voc * self.jsc), 0.0)
 
 
 def solve_series(d, *, xtol_rel: float = XTOL_REL) -> OperatingPoint:
