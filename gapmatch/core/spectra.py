@@ -155,6 +155,10 @@ def _check_scaling(irradiance_W_m2: float | None, concentration: float) -> None:
     )
 
 
+#: most segment-walk steps per look-up before the bucket index gives way to a binary search
+_MAX_BUCKET_PASSES = 16
+
+
 @dataclass(frozen=True, eq=False)
 class TabulatedSpectrum(Spectrum):
     """A spectrum given as spectral irradiance at tabulated wavelengths.
@@ -186,7 +190,7 @@ class TabulatedSpectrum(Spectrum):
     _cum_photons: np.ndarray = field(init=False, repr=False)
     _cum_power: np.ndarray = field(init=False, repr=False)
     _phi: np.ndarray = field(init=False, repr=False)
-    _bucket: tuple = field(init=False, repr=False)
+    _bucket: tuple | None = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
         wl = np.asarray(self.wavelength_nm, dtype=float)
@@ -217,18 +221,20 @@ class TabulatedSpectrum(Spectrum):
             )
         object.__setattr__(self, "wavelength_nm", wl)
         object.__setattr__(self, "irradiance_W_m2_nm", irr)
-        # photon flux per nm at the nodes [m^-2 s^-1 nm^-1]
-        phi = irr * wl * 1e-9 / (H * C)
+        # photon flux per nm at the nodes [m^-2 s^-1 nm^-1]; overflow is checked below
+        with np.errstate(over="ignore", invalid="ignore"):
+            phi = irr * wl * 1e-9 / (H * C)
+            dl = np.diff(wl)
+            cum_photons = np.concatenate(([0.0], np.cumsum(0.5 * dl * (phi[1:] + phi[:-1]))))
+            cum_power = np.concatenate(([0.0], np.cumsum(0.5 * dl * (irr[1:] + irr[:-1]))))
         object.__setattr__(self, "_phi", phi)
-        dl = np.diff(wl)
-        object.__setattr__(
-            self,
-            "_cum_photons",
-            np.concatenate(([0.0], np.cumsum(0.5 * dl * (phi[1:] + phi[:-1])))),
-        )
-        object.__setattr__(
-            self, "_cum_power", np.concatenate(([0.0], np.cumsum(0.5 * dl * (irr[1:] + irr[:-1]))))
-        )
+        object.__setattr__(self, "_cum_photons", cum_photons)
+        object.__setattr__(self, "_cum_power", cum_power)
+        if not (np.isfinite(self._cum_power[-1]) and np.isfinite(self._cum_photons[-1])):
+            raise InputError(
+                "spectrum",
+                "irradiance or wavelengths too large: the photon and power integrals overflow",
+            )
         if self._cum_power[-1] <= 0:
             raise InputError("spectrum", "the spectrum integrates to zero irradiance")
         # bucket index over wavelength: segment look-up in O(1) instead of a binary search
@@ -238,7 +244,12 @@ class TabulatedSpectrum(Spectrum):
         seg = np.clip(np.searchsorted(wl, starts, side="right") - 1, 0, wl.size - 2)
         ends = np.clip(np.searchsorted(wl, starts + width, side="right") - 1, 0, wl.size - 2)
         passes = int(np.max(ends - seg)) if seg.size else 0
-        object.__setattr__(self, "_bucket", (1.0 / width, seg, passes))
+        if passes > _MAX_BUCKET_PASSES:
+            # very uneven spacing (many points crowded in one bucket): a binary search
+            # per query, O(log n), finds the same segment as the bucket walk
+            object.__setattr__(self, "_bucket", None)
+        else:
+            object.__setattr__(self, "_bucket", (1.0 / width, seg, passes))
 
     # engine interface
     @property
@@ -257,11 +268,14 @@ class TabulatedSpectrum(Spectrum):
         with np.errstate(divide="ignore"):
             lam = H * C / np.maximum(e, 1e-300) * 1e9
         lam = np.clip(lam, wl[0], wl[-1])
-        inv_width, seg, passes = self._bucket
-        k = seg[((lam - wl[0]) * inv_width).astype(np.intp)]
-        for _ in range(passes):
-            k = k + (wl[np.minimum(k + 1, wl.size - 1)] <= lam)
-        k = np.minimum(k, wl.size - 2)
+        if self._bucket is None:
+            k = np.clip(np.searchsorted(wl, lam, side="right") - 1, 0, wl.size - 2)
+        else:
+            inv_width, seg, passes = self._bucket
+            k = seg[((lam - wl[0]) * inv_width).astype(np.intp)]
+            for _ in range(passes):
+                k = k + (wl[np.minimum(k + 1, wl.size - 1)] <= lam)
+            k = np.minimum(k, wl.size - 2)
         x = lam - wl[k]
         slope = (values[k + 1] - values[k]) / (wl[k + 1] - wl[k])
         return cum[k] + x * (values[k] + 0.5 * x * slope)

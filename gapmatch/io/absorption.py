@@ -13,7 +13,7 @@ from pathlib import Path
 
 from ..core.absorption import TabulatedAbsorption
 from ..units import C, H
-from .tables import read_wavelength_table
+from .tables import read_unit_table
 
 __all__ = ["read_alpha_csv"]
 
@@ -25,8 +25,9 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
     ----------
     path : str or pathlib.Path
         CSV file with two numeric columns, wavelength [nm] and absorption coefficient
-        [cm^-1]. A header row (any non-numeric first row) and lines starting with ``#``
-        are skipped. Wavelengths must increase strictly.
+        [cm^-1]. An optional header row may state other units (wavelength in µm or
+        photon energy in eV; alpha in m^-1, µm^-1 or nm^-1; see
+        :mod:`gapmatch.io.tables`). Lines starting with ``#`` are skipped.
 
     Returns
     -------
@@ -42,7 +43,7 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
         zero everywhere.
     """
     p = Path(path)
-    wl, al = read_wavelength_table(p, f"absorption file {p}", "absorption coefficient", "cm^-1")
-    energy = (H * C / (wl * 1e-9))[::-1]
-    alpha = (al * 100.0)[::-1]
-    return TabulatedAbsorption(energy, alpha, source=str(p))
+    t = read_unit_table(p, f"absorption file {p}", "absorption coefficient")
+    energy = (H * C / (t.wavelength_nm * 1e-9))[::-1]
+    alpha = (t.values * 100.0)[::-1]  # cm^-1 -> m^-1
+    return TabulatedAbsorption(energy, alpha, source=f"{p} ({t.describe()})")

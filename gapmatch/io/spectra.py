@@ -13,7 +13,7 @@ from pathlib import Path
 
 from ..core.spectra import BlackbodySun, Spectrum, TabulatedSpectrum
 from ..errors import InputError
-from .tables import read_wavelength_table
+from .tables import read_unit_table
 
 __all__ = [
     "STANDARD_SPECTRA",
@@ -70,32 +70,81 @@ def _canonical(name: str) -> str:
     return str(name)
 
 
-def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpectrum:
-    """Read a spectrum from a CSV file.
+#: plausible wavelength range of a spectrum file [nm]; outside it the file is taken to be
+#: in other units (common practice, no source: solar spectra span ~280-4000 nm)
+WAVELENGTH_RANGE_NM = (100.0, 1e5)
+#: plausible integral of a one-sun spectrum file [W m^-2] (common practice, no source:
+#: terrestrial and extraterrestrial one-sun spectra lie near 100-1400 W m^-2)
+FILE_IRRADIANCE_RANGE_W_M2 = (1.0, 1e5)
+
+
+def read_spectrum_csv(
+    path: str | Path, name: str | None = None, *, column: int | str | None = None
+) -> TabulatedSpectrum:
+    """Read a spectrum from a CSV file, with units from its header.
 
     Parameters
     ----------
     path : str or pathlib.Path
-        File with two numeric columns, wavelength [nm] and spectral irradiance
-        [W m^-2 nm^-1]. A header row (any non-numeric first row) and lines starting with
-        ``#`` are skipped.
+        UTF-8 CSV file: the spectral axis, then one or more value columns. An optional
+        header row names the columns and may state units: wavelength in nm (default), µm
+        or photon energy in eV; spectral irradiance in W m^-2 nm^-1 (default),
+        W m^-2 µm^-1, mW cm^-2 nm^-1, W m^-2 eV^-1 and similar (see
+        :mod:`gapmatch.io.tables`). Lines starting with ``#`` are skipped.
     name : str, optional
         Label; defaults to the file name.
+    column : int or str, optional
+        The irradiance column, by 1-based number or header name; required when the file
+        has more than two columns.
 
     Returns
     -------
     TabulatedSpectrum
+        Its ``source`` names the file, the column and every unit conversion or
+        assumption made.
 
     Raises
     ------
     InputError
         Naming the file, the row (1-based line number) and the problem: fewer than two
         data rows, a non-numeric or non-finite value, wavelengths not strictly
-        increasing or not positive, negative irradiance.
+        increasing or not positive, negative irradiance, several value columns and none
+        chosen, or wavelengths outside 100-100,000 nm after unit conversion (a sign of
+        unlabelled µm or eV).
     """
     p = Path(path)
-    wl, irr = read_wavelength_table(p, f"spectrum file {p}", "irradiance", "W m^-2 nm^-1")
-    return TabulatedSpectrum(wl, irr, name=name or p.stem, source=str(p))
+    field = f"spectrum file {p}"
+    t = read_unit_table(p, field, "irradiance", column=column)
+    lo, hi = WAVELENGTH_RANGE_NM
+    if t.wavelength_nm[0] < lo or t.wavelength_nm[-1] > hi:
+        hint = (
+            "; if the axis is in µm or eV, say so in its header, e.g. 'wavelength [um]'"
+            if t.wavelength_nm[-1] < lo
+            else ""
+        )
+        raise InputError(
+            field,
+            f"wavelengths {t.wavelength_nm[0]:.4g}-{t.wavelength_nm[-1]:.4g} nm lie outside "
+            f"the plausible {lo:g}-{hi:g} nm ({t.describe()}){hint}",
+        )
+    spec = TabulatedSpectrum(
+        t.wavelength_nm, t.values, name=name or p.stem, source=f"{p} ({t.describe()})"
+    )
+    return spec
+
+
+def _check_file_irradiance(spec: TabulatedSpectrum) -> None:
+    """Refuse a spectrum file whose integral suggests a unit error."""
+    lo, hi = FILE_IRRADIANCE_RANGE_W_M2
+    total = spec.total_irradiance_W_m2
+    if not lo <= total <= hi:
+        raise InputError(
+            f"spectrum file {spec.source}",
+            f"integrates to {total:.4g} W m^-2, outside the plausible {lo:g}-{hi:g} W m^-2 "
+            "of a one-sun spectrum; check the irradiance unit in the header (W m^-2 nm^-1 "
+            "is assumed when none is given), or pass irradiance_W_m2 (--irradiance) to "
+            "rescale it, or store the one-sun spectrum and set the concentration",
+        )
 
 
 def get_spectrum(
@@ -105,6 +154,7 @@ def get_spectrum(
     sun_temperature_K: float = 6000.0,  # noqa: N803
     irradiance_W_m2: float | None = None,  # noqa: N803
     concentration: float = 1.0,
+    spectrum_column: int | str | None = None,
 ) -> Spectrum:
     """Resolve a spectrum from a name, a file or an object, then scale it.
 
@@ -120,13 +170,18 @@ def get_spectrum(
         Rescale the unconcentrated spectrum to this total [W m^-2], in (0, 1e5].
     concentration : float
         Concentration [suns], in (0, 46,200].
+    spectrum_column : int or str, optional
+        Irradiance column of ``spectrum_file`` (1-based number or header name); needed
+        when the file has more than two columns.
 
     Returns
     -------
     Spectrum
     """
     if spectrum_file is not None:
-        spec: Spectrum = read_spectrum_csv(spectrum_file)
+        spec: Spectrum = read_spectrum_csv(spectrum_file, column=spectrum_column)
+        if irradiance_W_m2 is None:
+            _check_file_irradiance(spec)
     elif isinstance(spectrum, Spectrum):
         spec = spectrum
     elif _canonical(spectrum) == "blackbody":
