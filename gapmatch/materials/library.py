@@ -134,7 +134,7 @@ class GapModel:
     params : dict
         ``name -> Sourced``: ``eg0_eV``, ``alpha_eV_K``, ``beta_K`` (varshni);
         ``gap_eV`` (fixed); ``low_eV``, ``high_eV`` (window); ``c0_eV``, ``c1_eV``,
-        ``x_range`` (alloy); ``dEg_dT_eV_K`` (linear temperature model).
+        ``x_range``, ``x_default`` (alloy); ``dEg_dT_eV_K`` (linear temperature model).
     endpoints : tuple
         Alloy only: the two endpoint models ``(A, B)`` (each a ``GapModel``).
     x_name : str
@@ -477,7 +477,7 @@ _GAP_KEYS = {
     "varshni": ("eg0_eV", "alpha_eV_K", "beta_K"),
     "fixed": ("gap_eV",),
     "window": ("low_eV", "high_eV"),
-    "alloy": ("a", "b", "x_name", "c0_eV", "c1_eV", "x_range", "x_default"),
+    "alloy": ("a", "b", "x_name", "c0_eV", "c1_eV", "x_range", "x_default", "x_range_source"),
 }
 _RANGES = {
     "eg0_eV": (0.1, 6.0, "eV"),
@@ -573,9 +573,13 @@ def _gap(tbl, path, sources, endpoints, fid, study_source) -> GapModel:
     lo, hi = (ck.number(x, f"{path}.x_range[{i + 1}]", 0.0, 1.0) for i, x in enumerate(xr))
     if not lo < hi:
         raise InputError(f"{path}.x_range", "low must be below high", xr)
-    params["x_range"] = Sourced(f"{fid}.x_range", (lo, hi), src)
+    xsrc = src
+    if "x_range_source" in tbl:
+        xsrc = _src(tbl["x_range_source"], f"{path}.x_range", sources, study_source)
+    params["x_range"] = Sourced(f"{fid}.x_range", (lo, hi), xsrc)
     xd = tbl.get("x_default")
     xd = (lo + hi) / 2 if xd is None else ck.number(xd, f"{path}.x_default", lo, hi)
+    params["x_default"] = Sourced(f"{fid}.x_default", xd, xsrc)
     model = GapModel(
         kind,
         params,

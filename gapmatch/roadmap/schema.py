@@ -435,6 +435,12 @@ def parse_roadmap(
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(origin, f"is not valid TOML: {exc}") from None
+    if "roadmap" not in doc and "study" in doc:
+        raise InputError(
+            "roadmap",
+            "is missing: this looks like a report study (gapmatch report); a roadmap study "
+            "has a [roadmap] table with milestones",
+        )
     ck.check_keys(
         doc,
         ("roadmap", "conditions", "search", "sources", "materials", "candidates", "projections"),
