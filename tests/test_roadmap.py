@@ -8,6 +8,8 @@ import json
 import numpy as np
 import pytest
 import scipy.stats
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import gapmatch as gm
 from gapmatch.materials import load_library
@@ -434,3 +436,35 @@ def test_custom_evaluator_hook():
     e = run_roadmap(s, Energy()).to_dict()["milestones"][0]["candidates"][0]
     p = run_roadmap(s).to_dict()["milestones"][0]["candidates"][0]
     assert e["p50_kWh_m2"] == pytest.approx(p["p50_pct"] / 100 * 1800.0, rel=1e-12)
+
+
+@settings(max_examples=10, deadline=None)
+@given(
+    lo=st.floats(-5.0, -0.5),
+    width=st.floats(0.0, 4.0),
+    mode=st.floats(0.0, 1.0),
+    bottom=st.floats(-4.0, 0.0),
+)
+def test_statistics_invariants(lo, width, mode, bottom):
+    """For any ERE range of the top cell (log10 bounds) the percentiles are ordered, the
+    likely value lies between the extremes of the draws, nothing exceeds the radiative
+    limit of the same gaps, and the headroom shares are non-negative (each cause only
+    takes power away). Efficiency rises with ERE, so every draw lies between the swings
+    to the low and the high bound."""
+    hi = min(lo + width, 0.0)
+    likely = 10 ** (lo + mode * (hi - lo))
+    proj = (
+        '[[projections]]\nmaterial = "GaAs"\nyears = [2030, 2035]\n'
+        f"ere = {{ low = {10**lo!r}, likely = {likely!r}, high = {10**hi!r} }}\n"
+        '[[projections]]\nmaterial = "Si"\nyears = [2030, 2035]\n'
+        f"ere = {10**bottom!r}\n"
+    )
+    for o in run_roadmap(study(SI_GAAS, proj, draws=64)).outcomes:
+        p10, p50, p90 = o.percentiles()
+        assert p10 <= p50 <= p90
+        if o.sensitivity:
+            d = o.sensitivity[0]
+            assert o.values.min() >= o.likely + d["swing_low"] - 1e-12
+            assert o.values.max() <= o.likely + d["swing_high"] + 1e-12
+        assert o.values.max() <= o.headroom["radiative_limit"] + 1e-12
+        assert all(v >= -1e-12 for v in o.headroom["causes"].values())

@@ -388,10 +388,15 @@ def run_roadmap(
                 gaps, search = design_gaps(study, cand, year, evaluator, where)
                 gc = _shift(study, cand)(gaps[None])[0]
                 inputs = inputs_of(cand, year)
-                conn, phys = _physics(study, cand, year, m, inputs)
-                vals = evaluator(np.broadcast_to(gc, (m, gc.size)), conn, phys).value
-                head = _headroom(study, cand, year, gc, evaluator)
-                sens = _sensitivity(study, cand, year, gc, evaluator, inputs, vals, head)
+                try:
+                    conn, phys = _physics(study, cand, year, m, inputs)
+                    vals = evaluator(np.broadcast_to(gc, (m, gc.size)), conn, phys).value
+                    head = _headroom(study, cand, year, gc, evaluator)
+                    sens = _sensitivity(study, cand, year, gc, evaluator, inputs, vals, head)
+                except InputError as exc:
+                    raise InputError(
+                        f"{where} in {year}: {exc.field}", exc.problem, exc.value
+                    ) from None
                 outcomes.append(
                     CandidateOutcome(
                         candidate=cand,
