@@ -405,6 +405,10 @@ ere = { low = 1e-4, likely = 1e-3, high = 1e-2 }
     assert any(u.startswith("Si.ere@") for u in src["green2012"]["used_by"])
     assert src["thurmond1975"]["status"] == "cited"
     assert any(s["status"] == "study assumption" for s in d["sources"])
+    # only numbers that were used: no thickness was projected, so the library's
+    # absorption defaults and typical thicknesses ("common practice") are not listed
+    assert "practice" not in src
+    assert "GaAs.ere@2030" not in src["green2012"]["used_by"]  # projected, not the library's
     files = r.write_csv(tmp_path)
     assert sorted(p.name for p in files) == sorted(
         f"t-{k}.csv" for k in ("ranking", "headroom", "sensitivity", "sources", "draws")

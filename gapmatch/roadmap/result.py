@@ -18,7 +18,6 @@ from typing import Any
 
 import numpy as np
 
-from ..materials import STUDY_STATUS
 from .schema import Candidate, RoadmapStudy  # noqa: F401 - documented types
 
 __all__ = ["CandidateOutcome", "RoadmapResult", "CAUTION"]
@@ -120,28 +119,37 @@ class RoadmapResult:
         """Unit suffix of the value columns (``"pct"`` for efficiency)."""
         return self.evaluator.unit
 
+    def used_numbers(self, o: CandidateOutcome) -> list[tuple[str, Any]]:
+        """``(field, Source)`` of every number behind an outcome: the library's gap and
+        temperature model of each material, its absorption numbers when a thickness is
+        projected, and the projected (or library) ERE, thickness, collection, resistance
+        and gap window of the milestone."""
+        out: list[tuple[str, Any]] = []
+        y = o.year
+        for mat in o.candidate.materials:
+            mt = self.study.library[mat]
+            p = self.study.projection(mat, y)
+            out += [(s.field, s.source) for s in mt.gap.sourced()]
+            out.append((f"{mat}.ere@{y}", p.ere_source))
+            if p.source is None:
+                continue
+            if p.thickness_nm is not None:
+                out += [(s.field, s.source) for s in (mt.alpha0_per_cm, mt.refractive_index)]
+                out.append((f"{mat}.thickness_nm@{y}", p.source))
+            for name, given in (
+                ("collection_efficiency", p.collection_efficiency != 1.0),
+                ("series_resistance_ohm_cm2", p.series_resistance_ohm_cm2 != 0.0),
+                ("gap_window_eV", p.gap_window_eV is not None),
+            ):
+                if given:
+                    out.append((f"{mat}.{name}@{y}", p.source))
+        return out
+
     def marks(self, o: CandidateOutcome) -> list[str]:
         """Statuses other than "cited" of the numbers behind an outcome."""
         key = (o.candidate.name, o.year)
         if key not in self._marks:
-            st = set()
-            lib = self.study.library
-            for mat in o.candidate.materials:
-                mt = lib[mat]
-                used = list(mt.gap.sourced())
-                p = self.study.projection(mat, o.year)
-                if p.thickness_nm is not None:
-                    used += [mt.alpha0_per_cm, mt.refractive_index]
-                st.update(s.source.status for s in used if s.source.flagged)
-                if p.ere_source.flagged:
-                    st.add(p.ere_source.status)
-                if p.source is not None and (
-                    p.thickness_nm is not None
-                    or p.gap_window_eV is not None
-                    or p.collection_efficiency != 1.0
-                    or p.series_resistance_ohm_cm2 != 0.0
-                ):
-                    st.add(STUDY_STATUS)
+            st = {src.status for _, src in self.used_numbers(o) if src.flagged}
             self._marks[key] = sorted(st)
         return self._marks[key]
 
@@ -246,17 +254,14 @@ class RoadmapResult:
         return pd.DataFrame(rows, columns=cols)
 
     def sources(self) -> list[dict]:
-        """Every source behind the numbers used (library sources with the fields that
-        use them, and the study's projection sources)."""
-        lib = self.study.library
-        out = {d["key"]: d for d in lib.sources_used(self.study.materials_used())}
-        for (mat, year), p in sorted(self.study.projections.items(), key=lambda kv: kv[0][1]):
-            src = p.ere_source
-            d = out.setdefault(src.key, src.to_dict() | {"used_by": []})
-            d["used_by"].append(f"{mat}.ere@{year}")
-            if p.source is not None and p.source.key != src.key:
-                d = out.setdefault(p.source.key, p.source.to_dict() | {"used_by": []})
-                d["used_by"].append(f"{mat}@{year}")
+        """Every source behind the numbers used (see :meth:`used_numbers`), each with
+        its status and the fields that use it (``used_by``)."""
+        out: dict[str, dict] = {}
+        for o in self.outcomes:
+            for fld, src in self.used_numbers(o):
+                d = out.setdefault(src.key, src.to_dict() | {"used_by": []})
+                if fld not in d["used_by"]:
+                    d["used_by"].append(fld)
         return list(out.values())
 
     def sources_frame(self):
