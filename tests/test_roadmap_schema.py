@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pytest
@@ -214,7 +215,7 @@ def _toml(v) -> str:
     if isinstance(v, int):
         return str(v)
     if isinstance(v, str):
-        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+        return json.dumps(v)  # JSON string escapes are valid TOML basic strings
     return "{ " + ", ".join(f"{k} = {_toml(x)}" for k, x in v.items()) + " }"
 
 
@@ -234,3 +235,33 @@ def test_fuzzed_projection_is_valid_or_one_clear_error(name, value):
         assert 1 <= p.thickness_nm.low <= p.thickness_nm.high <= 1e8
     else:
         assert 0 < p.collection_efficiency <= 1
+
+
+def test_reading_a_study_loads_neither_optuna_nor_plotly():
+    """Validation is cheap: the search (optuna) and the figures (plotly) load only when
+    used (fresh interpreter, so earlier imports of the test session do not count)."""
+    import subprocess
+    import sys
+
+    root = Path(__file__).parents[1]
+    code = (
+        "import sys; from gapmatch.roadmap import load_roadmap; "
+        f"load_roadmap({str(root / 'configs' / 'roadmap-demo.toml')!r}); "
+        "print(sorted(m for m in ('optuna', 'plotly', 'scipy.stats') if m in sys.modules))"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", code], cwd=root, capture_output=True, text=True, check=True
+    )
+    assert out.stdout.strip() == "[]"
+
+
+def test_spectrum_file_is_relative_to_the_study(tmp_path: Path):
+    (tmp_path / "sub").mkdir()
+    spec = tmp_path / "sub" / "flat.csv"
+    spec.write_text("wavelength_nm,irradiance_W_m2_nm\n300,1.0\n1200,1.0\n2500,1.0\n")
+    f = tmp_path / "sub" / "rm.toml"
+    f.write_text(BASE + '\n[conditions]\nspectrum_file = "flat.csv"\n')
+    assert load_roadmap(f).conditions["spectrum_file"] == str(spec)
+    f.write_text(BASE + '\n[conditions]\nspectrum_file = "missing.csv"\n')
+    with pytest.raises(InputError, match="relative to the study file"):
+        load_roadmap(f)

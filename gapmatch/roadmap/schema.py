@@ -258,7 +258,7 @@ def _uncertain(value: Any, path: str, name: str) -> Uncertain:
     return Uncertain("uniform", a, mid, b, log)
 
 
-def _conditions(tbl: dict, path: str) -> dict:
+def _conditions(tbl: dict, path: str, base_dir=None) -> dict:
     ck.check_keys(
         tbl,
         ("spectrum", "spectrum_file", "concentration", "irradiance_W_m2", "temperature_K"),
@@ -268,7 +268,16 @@ def _conditions(tbl: dict, path: str) -> dict:
     if "spectrum" in tbl:
         out["spectrum"] = ck.choice(tbl["spectrum"], f"{path}.spectrum", SPECTRA)
     if "spectrum_file" in tbl:
-        out["spectrum_file"] = ck.string(tbl["spectrum_file"], f"{path}.spectrum_file")
+        f = Path(ck.string(tbl["spectrum_file"], f"{path}.spectrum_file", 1000))
+        if not f.is_absolute() and base_dir is not None:
+            f = Path(base_dir) / f
+        if not f.is_file():
+            raise InputError(
+                f"{path}.spectrum_file",
+                "file not found (paths are relative to the study file)",
+                tbl["spectrum_file"],
+            )
+        out["spectrum_file"] = str(f)
     if "concentration" in tbl:
         out["concentration"] = ck.number(
             tbl["concentration"], f"{path}.concentration", 0.0, 46200.0, "suns", low_open=True
@@ -409,7 +418,10 @@ _SLUG = re.compile(r"[A-Za-z0-9][A-Za-z0-9._-]{0,79}")
 
 
 def parse_roadmap(
-    text: str, origin: str = "<text>", library: MaterialLibrary | None = None
+    text: str,
+    origin: str = "<text>",
+    library: MaterialLibrary | None = None,
+    base_dir: str | Path | None = None,
 ) -> RoadmapStudy:
     """Parse and validate roadmap study TOML text (format: module docstring).
 
@@ -421,6 +433,9 @@ def parse_roadmap(
         Name of the document (file path) for messages.
     library : MaterialLibrary, optional
         Base library (default the packaged one).
+    base_dir : str or pathlib.Path, optional
+        Folder that a relative ``conditions.spectrum_file`` is resolved against (the
+        study file's folder; default the working folder).
 
     Returns
     -------
@@ -495,7 +510,9 @@ def parse_roadmap(
         library=lib,
         draws=ck.integer(rm.get("draws", 2000), "roadmap.draws", 1, 100_000),
         seed=ck.integer(rm.get("seed", 0), "roadmap.seed", 0, 2**32 - 1),
-        conditions=_conditions(ck.table(doc.get("conditions", {}), "conditions"), "conditions"),
+        conditions=_conditions(
+            ck.table(doc.get("conditions", {}), "conditions"), "conditions", base_dir
+        ),
         search=_search(ck.table(doc.get("search", {}), "search"), "search"),
         organisation=ck.string(rm["organisation"], "roadmap.organisation")
         if "organisation" in rm
@@ -533,7 +550,7 @@ def load_roadmap(path: str | Path, library: MaterialLibrary | None = None) -> Ro
     except OSError as exc:
         raise InputError(str(p), f"cannot be read ({exc.strerror})") from None
     try:
-        return parse_roadmap(text, str(p), library)
+        return parse_roadmap(text, str(p), library, base_dir=p.parent)
     except InputError as exc:
         if exc.field.startswith(str(p)):
             raise
