@@ -33,7 +33,7 @@ Tables
     ``material``, ``year`` (or ``years``, a list of milestones) and the projected
     parameters of that material at those milestones, each a number or an uncertainty:
 
-    * ``ere`` -- external radiative efficiency, (0, 1]; sampled in log10 space;
+    * ``ere`` -- external radiative efficiency, 1e-12 to 1; sampled in log10 space;
     * ``thickness_nm`` -- absorber thickness [nm] (sets the library's finite absorber;
       without it the junction is an ideal step absorber);
     * ``collection_efficiency`` -- (0, 1], a number only;
@@ -90,7 +90,7 @@ _PROJECTION_KEYS = (
     "source",
 )
 _RANGES = {
-    "ere": (0.0, 1.0, "", True),
+    "ere": (1e-12, 1.0, "", False),
     "thickness_nm": (1.0, 1e8, "nm", False),
     "collection_efficiency": (0.0, 1.0, "", True),
     "series_resistance_ohm_cm2": (0.0, 100.0, "ohm cm^2", False),
@@ -254,7 +254,7 @@ def _uncertain(value: Any, path: str, name: str) -> Uncertain:
         if not a <= c <= b:
             raise InputError(f"{path}.likely", f"must lie in [low, high] = [{a:g}, {b:g}]", c)
         return Uncertain("triangular", a, c, b, log)
-    mid = float(np.sqrt(a * b)) if log else (a + b) / 2
+    mid = float(10.0 ** ((np.log10(a) + np.log10(b)) / 2)) if log else (a + b) / 2
     return Uncertain("uniform", a, mid, b, log)
 
 
