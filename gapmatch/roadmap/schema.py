@@ -397,9 +397,6 @@ def _projections(items: list, lib: MaterialLibrary, years: tuple[int, ...], used
                     f"material {mat!r} has no ere projection for {y} and the library has no "
                     "typical value; add a [[projections]] entry with ere",
                 )
-            for name in ("collection_efficiency", "series_resistance_ohm_cm2"):
-                if name in v and not v[name].is_point:  # pragma: no cover - rejected above
-                    raise InputError(name, "must be a number")
             out[(mat, y)] = Projection(
                 mat,
                 y,
