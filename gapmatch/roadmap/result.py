@@ -156,9 +156,10 @@ class RoadmapResult:
     # ---- tables --------------------------------------------------------------------------
     def ranking_frame(self):
         """One row per milestone and candidate, ranked by P50 within each milestone:
-        ``year``, ``rank``, ``candidate``, ``connection``, ``materials``, ``gap_<i>_eV``
-        (300 K), ``p10_<unit>``, ``p50_<unit>``, ``p90_<unit>``, ``likely_<unit>``,
-        ``radiative_limit_<unit>``, ``probability_best``, ``top_input``, ``marks``."""
+        ``year``, ``rank``, ``candidate``, ``connection``, ``materials``, ``gaps_eV``
+        (text, top first) and ``gap_<i>_eV`` (numbers; 1 = top; 300 K), ``p10_<unit>``,
+        ``p50_<unit>``, ``p90_<unit>``, ``likely_<unit>``, ``radiative_limit_<unit>``,
+        ``probability_best``, ``top_input``, ``marks``."""
         import pandas as pd
 
         u, s = self.unit, self.evaluator.scale
@@ -175,6 +176,7 @@ class RoadmapResult:
                     "connection": o.candidate.connection,
                     "materials": " / ".join(o.candidate.materials),
                     "gaps_eV": " / ".join(f"{g:.3f}" for g in o.gaps_eV),
+                    **{f"gap_{i + 1}_eV": float(g) for i, g in enumerate(o.gaps_eV)},
                     f"p10_{u}": s * p10,
                     f"p50_{u}": s * p50,
                     f"p90_{u}": s * p90,
@@ -185,7 +187,13 @@ class RoadmapResult:
                     "marks": "; ".join(self.marks(o)),
                 }
                 rows.append(row)
-        return pd.DataFrame(rows)
+        frame = pd.DataFrame(rows)
+        gaps = sorted(
+            (c for c in frame.columns if c.startswith("gap_")), key=lambda c: int(c[4:-3])
+        )
+        rest = [c for c in frame.columns if not c.startswith("gap_")]
+        at = rest.index("gaps_eV") + 1
+        return frame[rest[:at] + gaps + rest[at:]]
 
     to_frame = ranking_frame
 
