@@ -29,12 +29,15 @@ import tomllib
 from dataclasses import dataclass, field, replace
 from importlib import resources
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from ..errors import InputError
 from . import checks as ck
+
+if TYPE_CHECKING:  # pandas loads only when a table is asked for
+    import pandas as pd
 
 __all__ = [
     "STATUSES",
@@ -354,13 +357,13 @@ class MaterialLibrary:
         """Material keys in file order."""
         return list(self.materials)
 
-    def to_frame(self):
+    def to_frame(self) -> pd.DataFrame:
         """One row per material (see :meth:`Material.row`)."""
         import pandas as pd
 
         return pd.DataFrame([m.row() for m in self])
 
-    def sources_frame(self):
+    def sources_frame(self) -> pd.DataFrame:
         """One row per number: ``material``, ``field``, ``value``, ``source``,
         ``status``, ``citation``."""
         import pandas as pd
@@ -399,7 +402,9 @@ class MaterialLibrary:
             "sources": [s.to_dict() for s in self.sources.values()],
         }
 
-    def extend(self, tables: dict, sources: dict | None = None, path: str = "materials"):
+    def extend(
+        self, tables: dict, sources: dict | None = None, path: str = "materials"
+    ) -> MaterialLibrary:
         """A new library with the study's materials added or overridden.
 
         Parameters

@@ -136,7 +136,7 @@ def probability_figure(result: RoadmapResult) -> go.Figure:
     return _layout(fig, "Probability of being the best candidate")
 
 
-def sensitivity_figure(result: RoadmapResult, candidate: str, year: int | None = None):
+def sensitivity_figure(result: RoadmapResult, candidate: str, year: int | None = None) -> go.Figure:
     """One-at-a-time swings of each uncertain input (tornado), largest on top, with the
     Spearman rank correlation in the labels; default the last milestone."""
     year = result.study.milestones[-1] if year is None else year

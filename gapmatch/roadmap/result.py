@@ -14,11 +14,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from .schema import Candidate, RoadmapStudy  # noqa: F401 - documented types
+
+if TYPE_CHECKING:  # pandas loads only when a table is asked for
+    import pandas as pd
 
 __all__ = ["CandidateOutcome", "RoadmapResult", "CAUTION"]
 
@@ -154,7 +157,7 @@ class RoadmapResult:
         return self._marks[key]
 
     # ---- tables --------------------------------------------------------------------------
-    def ranking_frame(self):
+    def ranking_frame(self) -> pd.DataFrame:
         """One row per milestone and candidate, ranked by P50 within each milestone:
         ``year``, ``rank``, ``candidate``, ``connection``, ``materials``, ``gaps_eV``
         (text, top first) and ``gap_<i>_eV`` (numbers; 1 = top; 300 K), ``p10_<unit>``,
@@ -197,7 +200,7 @@ class RoadmapResult:
 
     to_frame = ranking_frame
 
-    def draws_frame(self):
+    def draws_frame(self) -> pd.DataFrame:
         """Long table of every draw: ``year``, ``candidate``, ``draw``, ``<name>_<unit>``
         and one column per sampled input (``<material>.<parameter>``)."""
         import pandas as pd
@@ -215,7 +218,7 @@ class RoadmapResult:
             parts.append(pd.DataFrame(d))
         return pd.concat(parts, ignore_index=True)
 
-    def headroom_frame(self):
+    def headroom_frame(self) -> pd.DataFrame:
         """One row per milestone and candidate: ``likely_<unit>``, one
         ``<cause>_<unit>`` column per cause (gain from switching it off, in the documented
         order) and ``radiative_limit_<unit>``."""
@@ -233,7 +236,7 @@ class RoadmapResult:
             rows.append(row)
         return pd.DataFrame(rows)
 
-    def sensitivity_frame(self):
+    def sensitivity_frame(self) -> pd.DataFrame:
         """One row per milestone, candidate and uncertain input: ``rank_correlation``
         (Spearman), ``swing_low_<unit>``, ``swing_high_<unit>`` (change from the likely
         value with the input at its low / high value) and the input's range."""
@@ -272,7 +275,7 @@ class RoadmapResult:
                     d["used_by"].append(fld)
         return list(out.values())
 
-    def sources_frame(self):
+    def sources_frame(self) -> pd.DataFrame:
         """One row per source: ``key``, ``status``, ``citation``, ``where``, ``used_by``."""
         import pandas as pd
 
