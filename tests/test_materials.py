@@ -243,3 +243,11 @@ def test_fuzzed_window_is_valid_or_one_clear_error(lo, hi):
     w = lib["fuzz"].window_eV
     assert 0.1 <= w[0] < w[1] <= 5.0
     assert np.isfinite(w).all()
+
+
+def test_library_file_is_package_data():
+    """The data file ships with the package (pyproject.toml package data)."""
+    from pathlib import Path
+
+    cfg = tomllib.loads((Path(__file__).parents[1] / "pyproject.toml").read_text())
+    assert "library.toml" in cfg["tool"]["setuptools"]["package-data"]["gapmatch.materials"]
