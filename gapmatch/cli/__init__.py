@@ -16,7 +16,7 @@ from .. import __version__
 from ..errors import InputError
 
 #: sub-command modules, in help order
-COMMANDS = ["evaluate", "map", "optimise", "report", "init"]
+COMMANDS = ["evaluate", "map", "optimise", "report", "roadmap", "materials", "init"]
 
 
 def build_parser() -> argparse.ArgumentParser:
