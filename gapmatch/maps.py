@@ -41,12 +41,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .api import GAP_RANGE_EV, MAX_JUNCTIONS, check_cell_conditions, check_gaps
 from .core.connections import CONNECTIONS
 from .core.engine import solve_stacks
 from .core.spectra import Spectrum
 from .errors import InputError, check_range
 from .io.spectra import get_spectrum
+from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, check_cell_conditions, check_gaps
 from .results import Conditions
 from .units import EV
 
@@ -64,8 +64,6 @@ __all__ = [
 
 #: connections a map can be computed for
 MAP_CONNECTIONS = tuple(CONNECTIONS)
-#: largest number of grid points of one map
-MAX_MAP_POINTS = 1_000_000
 #: what happens to the junctions that are not on the map's axes
 OTHERS_MODES = ("fixed", "optimised")
 #: engine evaluations per batch when re-optimising free gaps (memory bound)
@@ -343,6 +341,28 @@ class MapResult:
         j = self.jph_mA_cm2[connection]
         return j[:, :, self.axes[0] - 1] - j[:, :, self.axes[1] - 1]
 
+    def matched_current_line(self, connection: str = "series") -> tuple[np.ndarray, np.ndarray]:
+        """Current-matched curve of the two axis junctions.
+
+        Returns
+        -------
+        tuple of numpy.ndarray
+            ``(x_eV, y_eV)``: for every first-axis gap [eV], the second-axis gap [eV]
+            where the two axis junctions' photocurrents are equal (linear interpolation
+            between grid points), NaN where there is none.
+        """
+        ex = self.current_excess_mA_cm2(connection)
+        ys = np.full(self.x_eV.size, np.nan)
+        s = np.sign(ex)
+        change = (s[:-1] * s[1:] <= 0) & (s[:-1] != s[1:]) & self.descending[:-1]
+        for_cols = change.any(axis=0)
+        iy = np.argmax(change, axis=0)
+        cols = np.flatnonzero(for_cols)
+        e0, e1 = ex[iy[cols], cols], ex[iy[cols] + 1, cols]
+        f = e0 / (e0 - e1)
+        ys[cols] = self.y_eV[iy[cols]] + f * (self.y_eV[iy[cols] + 1] - self.y_eV[iy[cols]])
+        return self.x_eV, ys
+
     def value_at(self, connection: str, x_eV: float, y_eV: float) -> float:  # noqa: N803
         """Efficiency (fraction) at the grid point nearest to ``(x_eV, y_eV)``."""
         eff = self._check_connection(connection)
@@ -487,7 +507,7 @@ def _check_connections(connections) -> tuple[str, ...]:
 
 def _efficiency(gaps_eV: np.ndarray, spec, conn, t, e, dark):  # noqa: N803
     """Efficiency (fraction) and photocurrents [mA cm^-2] of a batch, unchecked."""
-    sol = solve_stacks(gaps_eV * EV, spec, conn, temperature_K=t, ere=e, dark_model=dark)
+    sol = solve_stacks(gaps_eV * EV, spec, conn, temperature_K=t, ere=e, dark_current=dark)
     return sol.op.p_mpp / sol.incident_W_m2, 0.1 * sol.jph
 
 

@@ -25,6 +25,11 @@ __all__ = [
     "a_m2_to_ma_cm2",
     "ma_cm2_to_a_m2",
     "thermal_voltage",
+    "nm_to_m",
+    "mev_to_j",
+    "per_cm_to_per_m",
+    "ohm_cm2_to_ohm_m2",
+    "ohm_m2_to_ohm_cm2",
 ]
 
 #: elementary charge [C]
@@ -76,3 +81,28 @@ def ma_cm2_to_a_m2(j):
 def thermal_voltage(temperature_k):
     """Thermal voltage k T / q [V] at cell temperature ``temperature_k`` [K]."""
     return K_B * np.asarray(temperature_k, dtype=float) / Q
+
+
+def nm_to_m(length_nm):
+    """Convert a length from nm to m (factor 1e-9)."""
+    return np.asarray(length_nm, dtype=float) * 1e-9
+
+
+def mev_to_j(e_mev):
+    """Convert energy from meV to J."""
+    return np.asarray(e_mev, dtype=float) * 1e-3 * EV
+
+
+def per_cm_to_per_m(alpha_per_cm):
+    """Convert an absorption coefficient from cm^-1 to m^-1 (factor 100)."""
+    return np.asarray(alpha_per_cm, dtype=float) * 100.0
+
+
+def ohm_cm2_to_ohm_m2(r_ohm_cm2):
+    """Convert an area-specific resistance from ohm cm^2 to ohm m^2 (factor 1e-4)."""
+    return np.asarray(r_ohm_cm2, dtype=float) * 1e-4
+
+
+def ohm_m2_to_ohm_cm2(r_ohm_m2):
+    """Convert an area-specific resistance from ohm m^2 to ohm cm^2 (factor 1e4)."""
+    return np.asarray(r_ohm_m2, dtype=float) * 1e4

@@ -282,7 +282,7 @@ def test_jv_curve_endpoints(model):
     r = gm.evaluate([1.8, 1.1], dark_current=model)
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # no invalid-value warnings from unused voltages
-        c = gm.jv_curve(r, 0, "AM1.5G", points=50, dark_current=model)
+        c = gm.jv_curve(r, 0, points=50)
     d = r.stack(0)
     for (v, j), junction in zip(c["junctions"], d["junctions"], strict=True):
         assert j[0] == pytest.approx(junction["jph_mA_cm2"], rel=1e-12)  # J(0) = J_ph

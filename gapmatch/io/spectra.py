@@ -85,6 +85,8 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
     Returns
     -------
     TabulatedSpectrum
+        The same object for repeated calls while the file is unchanged (same path,
+        modification time and size): it is read and validated once.
 
     Raises
     ------
@@ -94,16 +96,33 @@ def read_spectrum_csv(path: str | Path, name: str | None = None) -> TabulatedSpe
         increasing or not positive, negative irradiance.
     """
     p = Path(path)
+    try:
+        st = p.stat()
+        key = (str(p.resolve()), st.st_mtime_ns, st.st_size, name)
+    except OSError:
+        key = None  # let the reader name the problem
+    if key is not None and key in _READ_CACHE:
+        return _READ_CACHE[key]
     wl, irr = read_wavelength_table(p, f"spectrum file {p}", "irradiance", "W m^-2 nm^-1")
-    return TabulatedSpectrum(wl, irr, name=name or p.stem, source=str(p))
+    spec = TabulatedSpectrum(wl, irr, name=name or p.stem, source=str(p))
+    if key is not None:
+        if len(_READ_CACHE) >= 16:
+            _READ_CACHE.pop(next(iter(_READ_CACHE)))
+        _READ_CACHE[key] = spec
+    return spec
+
+
+#: spectra read from files, by (path, modification time, size, name): a file that does
+#: not change is read and validated once per process, however many layers ask for it
+_READ_CACHE: dict[tuple, TabulatedSpectrum] = {}
 
 
 def get_spectrum(
     spectrum: str | Spectrum = "AM1.5G",
     *,
     spectrum_file: str | Path | None = None,
-    sun_temperature_K: float = 6000.0,  # noqa: N803
-    irradiance_W_m2: float | None = None,  # noqa: N803
+    sun_temperature_K: float = 6000.0,
+    irradiance_W_m2: float | None = None,
     concentration: float = 1.0,
 ) -> Spectrum:
     """Resolve a spectrum from a name, a file or an object, then scale it.

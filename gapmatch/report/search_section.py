@@ -16,7 +16,8 @@ from ..search.figures import (
     parallel_coordinates_figure,
 )
 from ..search.study_table import problem_from_study, search_settings
-from .sections import SectionOutput, para, register_section, table
+from .html import para, table
+from .registry import SectionOutput, register_section
 
 
 @register_section("search", "Band-gap search", default=False)
