@@ -214,8 +214,14 @@ def _load(root: Path) -> dict:
     return vals
 
 
+#: values that are not results (process ids, clocks) and are skipped
+IGNORE = ("worker_pid", "duration", "elapsed", "datetime", "created", "seconds")
+
+
 def compare(a: Path, b: Path, renames: dict | None = None) -> float:
     va, vb = _load(a), _load(b)
+    va = {k: v for k, v in va.items() if not any(w in k for w in IGNORE)}
+    vb = {k: v for k, v in vb.items() if not any(w in k for w in IGNORE)}
     if renames:
         for old, new in renames.items():
             va = {k.replace(old, new): v for k, v in va.items()}
@@ -231,6 +237,8 @@ def compare(a: Path, b: Path, renames: dict | None = None) -> float:
         if math.isnan(x) and math.isnan(y) or x == y:
             continue
         d = abs(x - y) / max(abs(x), abs(y))
+        if d > 1e-12:
+            print(f"{k}: {x!r} vs {y!r} (relative {d:.3g})")
         if d > worst:
             worst, where = d, k
     only_a = sorted(set(va) - set(vb))
