@@ -197,3 +197,35 @@ def test_parsing_a_study_loads_neither_optuna_nor_plotly(forbidden):
         [sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, check=True
     )
     assert out.stdout.strip() == "False"
+
+
+def test_help_lists_every_command_without_importing_them():
+    # ``gapmatch --help`` must not import the sub-command modules (start-up time); the
+    # one-line help it shows is the one each sub-command registers
+    code = (
+        "import sys, contextlib, io\n"
+        "from gapmatch.cli import main\n"
+        "buf = io.StringIO()\n"
+        "with contextlib.redirect_stdout(buf), contextlib.suppress(SystemExit):\n"
+        "    main(['--help'])\n"
+        "loaded = sorted(m for m in sys.modules if m.startswith('gapmatch.cli.') "
+        "and m != 'gapmatch.cli.commands')\n"
+        "heavy = [m for m in ('numpy', 'pandas', 'scipy', 'optuna', 'plotly') "
+        "if m in sys.modules]\n"
+        "print(loaded, heavy)\n"
+        "print(buf.getvalue())\n"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, check=True
+    ).stdout
+    assert out.splitlines()[0] == "[] []"
+    from gapmatch.cli import build_parser
+    from gapmatch.cli.commands import COMMANDS
+
+    full = build_parser()  # every sub-command registered in full
+    actions = next(a for a in full._actions if a.dest == "command")
+    flat = "".join(out.split())  # argparse wraps long help lines (also at hyphens)
+    for name, help_ in COMMANDS.items():
+        assert name in flat and "".join(help_.split()) in flat
+        assert name in actions.choices
+        assert actions._choices_actions[list(COMMANDS).index(name)].help == help_

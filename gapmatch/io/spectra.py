@@ -29,17 +29,43 @@ STANDARD_SPECTRA = {"AM1.5G": "global", "AM1.5D": "direct", "AM0": "extraterrest
 SPECTRUM_CHOICES = (*STANDARD_SPECTRA, "blackbody")
 
 
+def _pvlib_g173_file() -> Path | None:
+    """pvlib's packaged ASTM G173-03 table, found without importing pvlib (slow)."""
+    import importlib.util
+
+    spec = importlib.util.find_spec("pvlib")
+    if spec is None or not spec.submodule_search_locations:
+        return None
+    p = Path(next(iter(spec.submodule_search_locations))) / "data" / "ASTMG173.csv"
+    return p if p.is_file() else None
+
+
 @cache
 def _g173(column: str) -> TabulatedSpectrum:
-    import pvlib
+    from importlib.metadata import version
 
-    table = pvlib.spectrum.get_reference_spectra(standard="ASTM G173-03")
     name = next(k for k, v in STANDARD_SPECTRA.items() if v == column)
+    path = _pvlib_g173_file()
+    if path is not None:
+        # the file pvlib.spectrum.get_reference_spectra reads (a title line, then
+        # wavelength and one column per spectrum); numpy parses it to the same doubles
+        import numpy as np
+
+        with path.open(encoding="utf-8") as fh:
+            fh.readline()
+            header = [h.strip() for h in fh.readline().split(",")]
+        data = np.loadtxt(path, delimiter=",", skiprows=2)
+        wl, irr = data[:, 0], data[:, header.index(column)]
+    else:  # pragma: no cover - a pvlib without the data file where expected
+        import pvlib
+
+        table = pvlib.spectrum.get_reference_spectra(standard="ASTM G173-03")
+        wl, irr = table.index.to_numpy(dtype=float), table[column].to_numpy(dtype=float)
     return TabulatedSpectrum(
-        table.index.to_numpy(dtype=float),
-        table[column].to_numpy(dtype=float),
+        wl,
+        irr,
         name=name,
-        source=f"ASTM G173-03 ({column}), as packaged with pvlib {pvlib.__version__}",
+        source=f"ASTM G173-03 ({column}), as packaged with pvlib {version('pvlib')}",
     )
 
 
