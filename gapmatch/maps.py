@@ -48,7 +48,7 @@ from .errors import InputError, check_range
 from .io.spectra import get_spectrum
 from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, check_cell_conditions, check_gaps
 from .results import Conditions
-from .units import EV
+from .units import EV, a_m2_to_ma_cm2
 
 __all__ = [
     "MAP_CONNECTIONS",
@@ -363,7 +363,7 @@ class MapResult:
         ys[cols] = self.y_eV[iy[cols]] + f * (self.y_eV[iy[cols] + 1] - self.y_eV[iy[cols]])
         return self.x_eV, ys
 
-    def value_at(self, connection: str, x_eV: float, y_eV: float) -> float:  # noqa: N803
+    def value_at(self, connection: str, x_eV: float, y_eV: float) -> float:
         """Efficiency (fraction) at the grid point nearest to ``(x_eV, y_eV)``."""
         eff = self._check_connection(connection)
         ix = int(np.argmin(np.abs(self.x_eV - x_eV)))
@@ -480,7 +480,7 @@ class CutResult:
 
 
 # ---- computation ---------------------------------------------------------------------------
-def _conditions(n: int, spectrum, temperature_K, ere, dark_current, spectrum_kw):  # noqa: N803
+def _conditions(n: int, spectrum, temperature_K, ere, dark_current, spectrum_kw):
     t, e = check_cell_conditions(n, temperature_K, ere, dark_current)
     spec = get_spectrum(spectrum, **spectrum_kw)
     cond = Conditions(
@@ -505,10 +505,10 @@ def _check_connections(connections) -> tuple[str, ...]:
     return tuple(dict.fromkeys(conns))
 
 
-def _efficiency(gaps_eV: np.ndarray, spec, conn, t, e, dark):  # noqa: N803
+def _efficiency(gaps_eV: np.ndarray, spec, conn, t, e, dark):
     """Efficiency (fraction) and photocurrents [mA cm^-2] of a batch, unchecked."""
     sol = solve_stacks(gaps_eV * EV, spec, conn, temperature_K=t, ere=e, dark_current=dark)
-    return sol.op.p_mpp / sol.incident_W_m2, 0.1 * sol.jph
+    return sol.op.p_mpp / sol.incident_W_m2, a_m2_to_ma_cm2(sol.jph)
 
 
 def _optimise_free(
@@ -523,7 +523,7 @@ def _optimise_free(
     *,
     budget: int = 4_000_000,
     xtol_eV: float = 2e-4,
-) -> np.ndarray:  # noqa: N803
+) -> np.ndarray:
     """Re-optimise the ``free`` gaps of every row of ``gaps`` (``(P, N)`` eV), batched.
 
     A coarse grid over the free gaps picks a start for every row; a batched pattern
@@ -579,19 +579,19 @@ def _optimise_free(
 def compute_map(
     connections=("series", "independent"),
     *,
-    x_range_eV: tuple[float, float] = (0.5, 2.5),  # noqa: N803
-    y_range_eV: tuple[float, float] | None = None,  # noqa: N803
-    step_eV: float = 0.01,  # noqa: N803
-    stack_eV=None,  # noqa: N803
+    x_range_eV: tuple[float, float] = (0.5, 2.5),
+    y_range_eV: tuple[float, float] | None = None,
+    step_eV: float = 0.01,
+    stack_eV=None,
     axes: tuple[int, int] | None = None,
     others: str = "fixed",
-    free_range_eV: tuple[float, float] = (0.3, 3.0),  # noqa: N803
+    free_range_eV: tuple[float, float] = (0.3, 3.0),
     spectrum: str | Spectrum = "AM1.5G",
     spectrum_file=None,
-    sun_temperature_K: float = 6000.0,  # noqa: N803
-    irradiance_W_m2: float | None = None,  # noqa: N803
+    sun_temperature_K: float = 6000.0,
+    irradiance_W_m2: float | None = None,
     concentration: float = 1.0,
-    temperature_K=300.0,  # noqa: N803
+    temperature_K=300.0,
     ere=1.0,
     dark_current: str = "boltzmann",
     progress=None,
@@ -743,13 +743,13 @@ def _pair(name: str, value) -> tuple[float, float]:
 
 
 def compute_cut(
-    base_gaps_eV,  # noqa: N803
+    base_gaps_eV,
     junction: int = 1,
-    values_eV=None,  # noqa: N803
+    values_eV=None,
     connections=("series", "independent"),
     *,
     spectrum: str | Spectrum = "AM1.5G",
-    temperature_K=300.0,  # noqa: N803
+    temperature_K=300.0,
     ere=1.0,
     dark_current: str = "boltzmann",
     **spectrum_kw,

@@ -78,24 +78,24 @@ class Spectrum:
 
     # -- required by the engine ------------------------------------------------------
     @property
-    def total_irradiance_W_m2(self) -> float:  # noqa: N802 - unit suffix
+    def total_irradiance_W_m2(self) -> float:
         """Integral of the spectral irradiance [W m^-2]."""
         raise NotImplementedError
 
     @property
-    def max_photon_energy_J(self) -> float:  # noqa: N802
+    def max_photon_energy_J(self) -> float:
         """Largest photon energy present [J] (``inf`` for a blackbody)."""
         raise NotImplementedError
 
-    def photon_flux_above(self, energy_J: np.ndarray) -> np.ndarray:  # noqa: N803
+    def photon_flux_above(self, energy_J: np.ndarray) -> np.ndarray:
         """Photon flux with photon energy above ``energy_J`` [m^-2 s^-1]."""
         raise NotImplementedError
 
-    def power_above(self, energy_J: np.ndarray) -> np.ndarray:  # noqa: N803
+    def power_above(self, energy_J: np.ndarray) -> np.ndarray:
         """Power density of photons above ``energy_J`` [W m^-2]."""
         raise NotImplementedError
 
-    def spectral_photon_flux(self, energy_J: np.ndarray) -> np.ndarray:  # noqa: N803
+    def spectral_photon_flux(self, energy_J: np.ndarray) -> np.ndarray:
         """Photon flux per unit photon energy [m^-2 s^-1 J^-1] at ``energy_J`` [J]."""
         raise NotImplementedError
 
@@ -141,7 +141,7 @@ class Spectrum:
         )
 
 
-def _check_scaling(irradiance_W_m2: float | None, concentration: float) -> None:  # noqa: N803
+def _check_scaling(irradiance_W_m2: float | None, concentration: float) -> None:
     if irradiance_W_m2 is not None:
         check_range(
             "irradiance_W_m2", irradiance_W_m2, 0.0, 1e5, low_inclusive=False, unit="W m^-2"
@@ -243,14 +243,14 @@ class TabulatedSpectrum(Spectrum):
 
     # engine interface
     @property
-    def total_irradiance_W_m2(self) -> float:  # noqa: N802
+    def total_irradiance_W_m2(self) -> float:
         return float(self._cum_power[-1])
 
     @property
-    def max_photon_energy_J(self) -> float:  # noqa: N802
+    def max_photon_energy_J(self) -> float:
         return H * C / (self.wavelength_nm[0] * 1e-9)
 
-    def _cumulative(self, values: np.ndarray, cum: np.ndarray, energy_J) -> np.ndarray:  # noqa: N803
+    def _cumulative(self, values: np.ndarray, cum: np.ndarray, energy_J) -> np.ndarray:
         """Exact integral from the shortest wavelength up to hc/E of the piecewise-linear
         interpolant of ``values``."""
         e = np.asarray(energy_J, dtype=float)
@@ -267,13 +267,13 @@ class TabulatedSpectrum(Spectrum):
         slope = (values[k + 1] - values[k]) / (wl[k + 1] - wl[k])
         return cum[k] + x * (values[k] + 0.5 * x * slope)
 
-    def photon_flux_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def photon_flux_above(self, energy_J) -> np.ndarray:
         return self._cumulative(self._phi, self._cum_photons, energy_J)
 
-    def power_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def power_above(self, energy_J) -> np.ndarray:
         return self._cumulative(self.irradiance_W_m2_nm, self._cum_power, energy_J)
 
-    def spectral_photon_flux(self, energy_J) -> np.ndarray:  # noqa: N803
+    def spectral_photon_flux(self, energy_J) -> np.ndarray:
         e = np.asarray(energy_J, dtype=float)
         lam = H * C / np.maximum(e, 1e-300) * 1e9
         per_nm = np.interp(lam, self.wavelength_nm, self._phi, left=0.0, right=0.0)
@@ -362,24 +362,24 @@ class BlackbodySun(Spectrum):
         return self.dilution * self.scale * PLANCK_PREFACTOR
 
     @property
-    def total_irradiance_W_m2(self) -> float:  # noqa: N802
+    def total_irradiance_W_m2(self) -> float:
         return self.dilution * self.scale * SIGMA * self.sun_temperature_K**4
 
     @property
-    def max_photon_energy_J(self) -> float:  # noqa: N802
+    def max_photon_energy_J(self) -> float:
         return math.inf
 
-    def photon_flux_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def photon_flux_above(self, energy_J) -> np.ndarray:
         x = np.maximum(np.asarray(energy_J, dtype=float), 0.0) / self._kt
         xs = np.maximum(x, 1e-12)
         return self._factor * self._kt**3 * bose_tail(2, xs, xs)
 
-    def power_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def power_above(self, energy_J) -> np.ndarray:
         x = np.maximum(np.asarray(energy_J, dtype=float), 0.0) / self._kt
         xs = np.maximum(x, 1e-12)
         return self._factor * self._kt**4 * bose_tail(3, xs, xs)
 
-    def spectral_photon_flux(self, energy_J) -> np.ndarray:  # noqa: N803
+    def spectral_photon_flux(self, energy_J) -> np.ndarray:
         e = np.maximum(np.asarray(energy_J, dtype=float), 1e-300)
         return self._factor * e**2 / np.expm1(e / self._kt)
 
