@@ -17,8 +17,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .core.connections import CONNECTIONS
 from .core.engine import solve_stacks, solve_stacks_nonideal
+from .core.registry import CONNECTIONS, REGISTRY, connection_model
 from .core.spectra import Spectrum
 from .device import build_physics
 from .errors import InputError
@@ -59,7 +59,7 @@ _SPECTRUM_DEFAULTS = {
 def _cells_per_string(cells_per_string, connection: str, n: int):
     if cells_per_string is None:
         return None
-    if connection != "voltage-matched":
+    if not connection_model(connection).cell_ratio:
         raise InputError("cells_per_string", "applies to connection 'voltage-matched' only")
     try:
         r = np.asarray(cells_per_string, dtype=float)
@@ -397,7 +397,8 @@ def reevaluate(result: BatchResult, *, losses: bool | None = None, **changes) ->
         kw |= {k: v for k, v in illum.options.items() if k in spectrum_keys}
     else:
         kw["spectrum"] = illum
-    if changes.get("connection", stack.connection) != "voltage-matched":
+    model = REGISTRY.get(changes.get("connection", stack.connection))
+    if model is None or not model.cell_ratio:  # (an unknown name: evaluate says so)
         kw.pop("cells_per_string")
     kw |= changes
     kw["losses"] = (result.solution.losses is not None) if losses is None else losses

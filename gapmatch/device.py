@@ -16,6 +16,7 @@ from types import MappingProxyType
 
 import numpy as np
 
+from .core.registry import connection_model
 from .core.spectra import Spectrum
 from .errors import InputError, check_finite_array, check_range
 from .limits import GAP_RANGE_EV, per_junction, per_junction_names
@@ -120,7 +121,7 @@ def _absorbers(g, dark_current, models, eu, thickness_nm, alpha0_per_cm, alpha_f
 def _coupling(coupling_fraction, connection, dark_current, n):
     if coupling_fraction is None:
         return None
-    if connection not in ("series", "independent"):
+    if not connection_model(connection).coupling:
         raise InputError(
             "coupling_fraction",
             "luminescent coupling needs connection 'series' or 'independent'",
@@ -259,13 +260,14 @@ def build_physics(
     rs = per_junction(
         "series_resistance_ohm_cm2", o["series_resistance_ohm_cm2"], n, 0.0, 100.0, "ohm cm^2"
     )
-    if np.ndim(rs) and connection != "independent":
+    model = connection_model(connection)
+    if np.ndim(rs) and model.terminals != "junction":
         raise InputError(
             "series_resistance_ohm_cm2",
             "one value per junction applies to "
             "connection 'independent' only; give one value for the stack",
         )
-    if np.any(np.asarray(rs) > 0) and connection == "voltage-matched":
+    if np.any(np.asarray(rs) > 0) and model.solve_resistive is None:
         raise InputError(
             "series_resistance_ohm_cm2",
             "series resistance needs connection 'series' or 'independent'",

@@ -41,8 +41,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .core.connections import CONNECTIONS
 from .core.engine import solve_stacks
+from .core.registry import CONNECTIONS
 from .core.spectra import Spectrum
 from .errors import InputError, check_range
 from .io.spectra import get_spectrum

@@ -27,8 +27,8 @@ from typing import Any
 
 import numpy as np
 
-from .core.connections import CONNECTIONS
 from .core.engine import DeviceModel
+from .core.registry import CONNECTIONS
 from .core.spectra import Spectrum
 from .errors import InputError
 from .io.spectra import get_spectrum

@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .core.engine import StackSolution
+from .core.registry import connection_model
 from .units import EV, a_m2_to_ma_cm2
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -250,7 +251,7 @@ class BatchResult:
     def ff(self) -> np.ndarray:
         """Fill factor (fraction), ``(M,)``."""
         op = self.solution.op
-        if self.connection == "independent":
+        if not connection_model(self.connection).has_stack_terminals:
             denom = (self.solution.voc_junction * self.solution.jph).sum(axis=1)
         else:
             denom = op.voc * op.jsc

@@ -35,8 +35,8 @@ from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
 
-from .core.connections import CONNECTIONS
 from .core.diodes import DARK_MODELS
+from .core.registry import CONNECTIONS
 from .core.spectra import MAX_CONCENTRATION
 from .errors import InputError
 from .io.spectra import SPECTRUM_CHOICES

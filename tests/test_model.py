@@ -210,3 +210,23 @@ def test_spectrum_series_validation(am15g):
         SpectrumSeries(wl, np.zeros((2, wl.size)))
     with pytest.raises(InputError, match="needs wavelengths"):
         SpectrumSeries(wl, np.ones((2, wl.size - 1)))
+
+
+@pytest.mark.parametrize("connection", ["series", "independent", "voltage-matched"])
+def test_the_connection_registry_describes_what_results_show(connection):
+    from gapmatch.core.registry import REGISTRY
+
+    model = REGISTRY[connection]
+    res = gm.evaluate([1.8, 1.1], connection)
+    # a stack with one pair of terminals has a stack V_oc; one per junction has none
+    assert np.isfinite(res.solution.op.voc[0]) == model.has_stack_terminals
+    if model.coupling:
+        gm.evaluate([1.8, 1.1], connection, coupling_fraction=0.5)
+    else:
+        with pytest.raises(InputError, match="coupling_fraction"):
+            gm.evaluate([1.8, 1.1], connection, coupling_fraction=0.5)
+    if model.solve_resistive is None:
+        with pytest.raises(InputError, match="series_resistance_ohm_cm2"):
+            gm.evaluate([1.8, 1.1], connection, series_resistance_ohm_cm2=0.1)
+    with pytest.raises(InputError, match="connection"):
+        reevaluate(res, connection="parallel")

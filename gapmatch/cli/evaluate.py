@@ -7,7 +7,7 @@ import json
 
 from ..api import evaluate
 from ..core.absorption import ABSORBER_MODELS, LIGHT_TRAPPING
-from ..core.connections import CONNECTIONS
+from ..core.registry import CONNECTIONS
 from ..results import LOSS_LABELS
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs

@@ -7,7 +7,7 @@ import json
 import sys
 from pathlib import Path
 
-from ..core.connections import CONNECTIONS
+from ..core.registry import CONNECTIONS
 from ..maps import OTHERS_MODES, compute_map
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs

@@ -6,7 +6,7 @@ import argparse
 import json
 import sys
 
-from ..core.connections import CONNECTIONS
+from ..core.registry import CONNECTIONS
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise

@@ -631,7 +631,7 @@ def _losses(jn: _Junctions, spectrum, connection, op, r_junction, r_stack):
 
     if jn.coupled:
         rj, rv, rjeff = solve_independent_coupled(jn.jph, jn.j0, jn.vt, jn.k, 0.0)
-    elif connection == "independent" and not np.any(r_junction > 0):
+    elif connection_model(connection).terminals == "junction" and not np.any(r_junction > 0):
         rj, rv, rjeff = op.j_junction, op.v_junction, jn.jph
     else:
         rv, rj = jn.diodes.mpp()
