@@ -45,8 +45,8 @@ from .core.engine import solve_stacks
 from .core.registry import CONNECTIONS
 from .core.spectra import Spectrum
 from .errors import InputError, check_range
-from .io.spectra import get_spectrum
 from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, check_cell_conditions, check_gaps
+from .model import Illumination
 from .results import Conditions
 from .units import EV, a_m2_to_ma_cm2
 
@@ -480,9 +480,25 @@ class CutResult:
 
 
 # ---- computation ---------------------------------------------------------------------------
+_SPECTRUM_DEFAULTS = {
+    "spectrum_file": None,
+    "sun_temperature_K": 6000.0,
+    "irradiance_W_m2": None,
+    "concentration": 1.0,
+}
+
+
 def _conditions(n: int, spectrum, temperature_K, ere, dark_current, spectrum_kw):
     t, e = check_cell_conditions(n, temperature_K, ere, dark_current)
-    spec = get_spectrum(spectrum, **spectrum_kw)
+    if isinstance(spectrum, Illumination):
+        illum = spectrum
+        changed = {k: v for k, v in spectrum_kw.items() if v != _SPECTRUM_DEFAULTS.get(k)}
+        if changed:
+            k = next(iter(changed))
+            raise InputError(k, "is part of the Illumination given as spectrum", changed[k])
+    else:
+        illum = Illumination.from_options(spectrum, **spectrum_kw)
+    spec = illum.spectrum
     cond = Conditions(
         spectrum=spec.describe(),
         incident_W_m2=spec.total_irradiance_W_m2,
@@ -586,7 +602,7 @@ def compute_map(
     axes: tuple[int, int] | None = None,
     others: str = "fixed",
     free_range_eV: tuple[float, float] = (0.3, 3.0),
-    spectrum: str | Spectrum = "AM1.5G",
+    spectrum: str | Spectrum | Illumination = "AM1.5G",
     spectrum_file=None,
     sun_temperature_K: float = 6000.0,
     irradiance_W_m2: float | None = None,
@@ -748,7 +764,7 @@ def compute_cut(
     values_eV=None,
     connections=("series", "independent"),
     *,
-    spectrum: str | Spectrum = "AM1.5G",
+    spectrum: str | Spectrum | Illumination = "AM1.5G",
     temperature_K=300.0,
     ere=1.0,
     dark_current: str = "boltzmann",

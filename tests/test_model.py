@@ -230,3 +230,26 @@ def test_the_connection_registry_describes_what_results_show(connection):
             gm.evaluate([1.8, 1.1], connection, series_resistance_ohm_cm2=0.1)
     with pytest.raises(InputError, match="connection"):
         reevaluate(res, connection="parallel")
+
+
+def test_maps_and_cuts_take_an_illumination():
+    from gapmatch.maps import compute_cut, compute_map
+
+    illum = Illumination.from_options("AM1.5D", concentration=50.0)
+    a = compute_map(
+        ["series"], x_range_eV=(1.5, 2.0), y_range_eV=(0.9, 1.2), step_eV=0.1, spectrum=illum
+    )
+    b = compute_map(
+        ["series"],
+        x_range_eV=(1.5, 2.0),
+        y_range_eV=(0.9, 1.2),
+        step_eV=0.1,
+        spectrum="AM1.5D",
+        concentration=50.0,
+    )
+    np.testing.assert_array_equal(a.efficiency["series"], b.efficiency["series"])
+    c = compute_cut([1.8, 1.1], 1, [1.7, 1.8], ["series"], spectrum=illum)
+    d = compute_cut([1.8, 1.1], 1, [1.7, 1.8], ["series"], spectrum="AM1.5D", concentration=50.0)
+    np.testing.assert_array_equal(c.efficiency["series"], d.efficiency["series"])
+    with pytest.raises(InputError, match="concentration"):
+        compute_map(["series"], spectrum=illum, concentration=2.0)
