@@ -229,3 +229,20 @@ def test_help_lists_every_command_without_importing_them():
         assert name in flat and "".join(help_.split()) in flat
         assert name in actions.choices
         assert actions._choices_actions[list(COMMANDS).index(name)].help == help_
+
+
+def test_evaluate_loads_only_what_it_uses():
+    # start-up of ``gapmatch evaluate``: optuna, plotly, pandas, pvlib (the G173 table is
+    # read from pvlib's data file directly) and scipy.stats stay unloaded
+    code = (
+        "import sys, contextlib, io\n"
+        "from gapmatch.cli import main\n"
+        "with contextlib.redirect_stdout(io.StringIO()):\n"
+        "    main(['evaluate', '--gaps', '1.63', '0.96', '--json'])\n"
+        "print([m for m in ('optuna', 'plotly', 'pandas', 'pvlib', 'scipy.stats') "
+        "if m in sys.modules])\n"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, check=True
+    )
+    assert out.stdout.strip() == "[]"
