@@ -253,3 +253,18 @@ def test_maps_and_cuts_take_an_illumination():
     np.testing.assert_array_equal(c.efficiency["series"], d.efficiency["series"])
     with pytest.raises(InputError, match="concentration"):
         compute_map(["series"], spectrum=illum, concentration=2.0)
+
+
+@pytest.mark.parametrize(
+    "name, column", [("AM1.5G", "global"), ("AM1.5D", "direct"), ("AM0", "extraterrestrial")]
+)
+def test_standard_spectra_are_pvlibs_table(name, column):
+    # read from pvlib's data file without importing pvlib (start-up): the same doubles as
+    # pvlib.spectrum.get_reference_spectra (ASTM G173-03), compared exactly
+    import pvlib
+
+    table = pvlib.spectrum.get_reference_spectra(standard="ASTM G173-03")
+    spec = gm.standard_spectrum(name)
+    np.testing.assert_array_equal(spec.wavelength_nm, table.index.to_numpy(float))
+    np.testing.assert_array_equal(spec.irradiance_W_m2_nm, table[column].to_numpy(float))
+    assert pvlib.__version__ in spec.source
