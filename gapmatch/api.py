@@ -395,6 +395,8 @@ def reevaluate(result: BatchResult, *, losses: bool | None = None, **changes) ->
     spectrum_keys = {"spectrum", *_SPECTRUM_DEFAULTS}
     if spectrum_keys & set(changes):
         kw |= {k: v for k, v in illum.options.items() if k in spectrum_keys}
+        if "spectrum" in changes and "spectrum_file" not in changes:
+            kw["spectrum_file"] = None  # a new spectrum replaces the file
     else:
         kw["spectrum"] = illum
     model = REGISTRY.get(changes.get("connection", stack.connection))

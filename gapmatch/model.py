@@ -64,9 +64,9 @@ class Illumination:
     spectrum : Spectrum
         The incident spectrum, already rescaled and concentrated.
     options : Mapping
-        The keywords it was built from (``spectrum``, ``spectrum_file``,
-        ``sun_temperature_K`` [K], ``irradiance_W_m2`` [W m^-2], ``concentration``
-        [suns]), for display and for rebuilding a study file.
+        The keywords it was built from (``spectrum``: a name or the unscaled spectrum
+        object; ``spectrum_file``, ``sun_temperature_K`` [K], ``irradiance_W_m2``
+        [W m^-2], ``concentration`` [suns]), to rebuild it with one of them changed.
 
     Notes
     -----
@@ -125,7 +125,7 @@ class Illumination:
             concentration=concentration,
         )
         opts = {
-            "spectrum": spectrum if isinstance(spectrum, str) else spec.name,
+            "spectrum": spectrum,  # a name, or the spectrum object as given
             "spectrum_file": None if spectrum_file is None else str(spectrum_file),
             "sun_temperature_K": float(sun_temperature_K),
             "irradiance_W_m2": None if irradiance_W_m2 is None else float(irradiance_W_m2),
@@ -138,7 +138,7 @@ class Illumination:
         """Wrap a spectrum object as it is (no rescaling)."""
         if not isinstance(spectrum, Spectrum):
             raise InputError("spectrum", "must be a Spectrum object", type(spectrum).__name__)
-        return cls(spectrum, MappingProxyType({"spectrum": spectrum.name}))
+        return cls(spectrum, MappingProxyType({"spectrum": spectrum}))
 
     @property
     def total_irradiance_W_m2(self) -> float:

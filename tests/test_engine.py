@@ -123,7 +123,7 @@ def test_series_mpp_matches_bruteforce(n, am15g):
 @pytest.mark.parametrize("model", ["boltzmann", "bose-einstein"])
 def test_independent_mpp_matches_bruteforce(model, am15g):
     g = np.array([[2.0, 1.5, 0.9], [1.7, 1.1, 0.5]])
-    sol = solve_stacks(g * EV, am15g, "independent", dark_model=model)
+    sol = solve_stacks(g * EV, am15g, "independent", dark_current=model)
     d = make_diodes(model, sol.jph, g * EV, 300.0, 1.0)
     for k in range(2):
         for i in range(3):

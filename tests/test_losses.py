@@ -45,7 +45,7 @@ def test_default_evaluate_bit_identical_to_hot_path(connection, kw):
         connection,
         temperature_K=kw.get("temperature_K", 300.0),
         ere=kw.get("ere", 1.0),
-        dark_model=kw.get("dark_current", "boltzmann"),
+        dark_current=kw.get("dark_current", "boltzmann"),
     )
     new = gm.evaluate(gaps, connection, **kw)
     new_l = gm.evaluate(gaps, connection, losses=True, **kw)

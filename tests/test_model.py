@@ -268,3 +268,21 @@ def test_standard_spectra_are_pvlibs_table(name, column):
     np.testing.assert_array_equal(spec.wavelength_nm, table.index.to_numpy(float))
     np.testing.assert_array_equal(spec.irradiance_W_m2_nm, table[column].to_numpy(float))
     assert pvlib.__version__ in spec.source
+
+
+def test_reevaluate_a_file_or_object_spectrum(tmp_path):
+    f = _smooth_spectrum_file(tmp_path)
+    res = gm.evaluate([1.6, 1.0], spectrum_file=f)
+    np.testing.assert_array_equal(
+        reevaluate(res, concentration=5.0).efficiency,
+        gm.evaluate([1.6, 1.0], spectrum_file=f, concentration=5.0).efficiency,
+    )
+    np.testing.assert_array_equal(
+        reevaluate(res, spectrum="AM0").efficiency, gm.evaluate([1.6, 1.0], spectrum="AM0").efficiency
+    )
+    own = gm.read_spectrum_csv(f)
+    res = gm.evaluate([1.6, 1.0], spectrum=own)
+    np.testing.assert_array_equal(
+        reevaluate(res, irradiance_W_m2=500.0).efficiency,
+        gm.evaluate([1.6, 1.0], spectrum=own, irradiance_W_m2=500.0).efficiency,
+    )
