@@ -41,7 +41,7 @@ from .core.spectra import MAX_CONCENTRATION
 from .errors import InputError
 from .io.spectra import SPECTRUM_CHOICES
 from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, TEMPERATURE_RANGE_K, check_gaps
-from .model import Illumination
+from .model import CellConditions, Illumination
 from .schema import Bool, Choice, Field, Int, List, Num, Records, Str, Table
 
 __all__ = [
@@ -343,6 +343,12 @@ class Study:
                 free_range_eV=tuple(m["free_range_eV"]),
             )
         return kw
+
+    @property
+    def cell(self) -> CellConditions:
+        """The study's cell conditions."""
+        c = self.conditions
+        return CellConditions(c["temperature_K"], c["ere"], c["dark_current"])
 
     @cached_property
     def illumination(self) -> Illumination:

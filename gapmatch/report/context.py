@@ -53,8 +53,7 @@ class ReportContext:
     @property
     def cell(self) -> CellConditions:
         """The study's cell conditions."""
-        c = self.study.conditions
-        return CellConditions(c["temperature_K"], c["ere"], c["dark_current"])
+        return self.study.cell
 
     def cell_options(self) -> dict:
         """The cell conditions as :func:`gapmatch.evaluate` keywords."""
