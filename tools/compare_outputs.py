@@ -6,7 +6,8 @@ two such records.
 
 ``record`` runs ``python -m gapmatch report configs/demo.toml`` and the ``evaluate``,
 ``map`` and ``optimise --json`` cases below from the current source tree and stores
-stdout and every data file (CSV, JSON) the report writes. ``compare`` flattens each JSON
+stdout and every data file (CSV, JSON) the report writes; the numbers of the report's
+figures are read from the page. ``compare`` flattens each JSON
 document and CSV table into ``path -> number`` and prints the largest relative
 difference over the paths the two records share, with the paths found in only one of
 them (renamed keys show up there; a rename table maps old names to new ones).
@@ -17,6 +18,7 @@ from __future__ import annotations
 import csv
 import json
 import math
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -195,6 +197,8 @@ def _flatten(obj, prefix: str, out: dict) -> None:
         out[prefix] = obj
     elif isinstance(obj, int | float):
         out[prefix] = float(obj)
+    elif isinstance(obj, str) and prefix.endswith(".bdata"):
+        out[prefix] = obj  # plotly's base64 arrays: equal strings, equal numbers
 
 
 def _load(root: Path) -> dict:
@@ -203,6 +207,15 @@ def _load(root: Path) -> dict:
         rel = str(p.relative_to(root))
         if p.suffix == ".json":
             _flatten(json.loads(p.read_text()), rel, vals)
+        elif p.suffix == ".html":  # the figures' data embedded in the report page
+            blocks = re.findall(
+                r'<script type="application/json" class="gm-figure-data" '
+                r'data-target="(gm-fig-\d+)">(.*?)</script>',
+                p.read_text(encoding="utf-8"),
+                re.S,
+            )
+            for fid, text in blocks:
+                _flatten(json.loads(text), f"{rel}#{fid}", vals)
         elif p.suffix == ".csv":
             with p.open() as fh:
                 for i, row in enumerate(csv.DictReader(fh)):
@@ -226,12 +239,13 @@ def compare(a: Path, b: Path, renames: dict | None = None) -> float:
         for old, new in renames.items():
             va = {k.replace(old, new): v for k, v in va.items()}
     shared = sorted(set(va) & set(vb))
-    worst, where, n = 0.0, None, 0
+    worst, where, n, n_other = 0.0, None, 0, 0
     for k in shared:
         x, y = va[k], vb[k]
         if not isinstance(x, float) or not isinstance(y, float):
+            n_other += 1
             if x != y:
-                print(f"differs: {k}: {x!r} vs {y!r}")
+                print(f"differs: {k}: {str(x)[:60]!r} vs {str(y)[:60]!r}")
             continue
         n += 1
         if math.isnan(x) and math.isnan(y) or x == y:
@@ -243,7 +257,10 @@ def compare(a: Path, b: Path, renames: dict | None = None) -> float:
             worst, where = d, k
     only_a = sorted(set(va) - set(vb))
     only_b = sorted(set(vb) - set(va))
-    print(f"{n} numbers compared; largest relative difference {worst:.3g} at {where}")
+    print(
+        f"{n} numbers and {n_other} flags / encoded arrays compared; largest relative "
+        f"difference {worst:.3g} at {where}"
+    )
     for name, only in (("first", only_a), ("second", only_b)):
         if only:
             print(f"{len(only)} values only in the {name} record, e.g. {only[:8]}")
