@@ -278,7 +278,8 @@ def test_reevaluate_a_file_or_object_spectrum(tmp_path):
         gm.evaluate([1.6, 1.0], spectrum_file=f, concentration=5.0).efficiency,
     )
     np.testing.assert_array_equal(
-        reevaluate(res, spectrum="AM0").efficiency, gm.evaluate([1.6, 1.0], spectrum="AM0").efficiency
+        reevaluate(res, spectrum="AM0").efficiency,
+        gm.evaluate([1.6, 1.0], spectrum="AM0").efficiency,
     )
     own = gm.read_spectrum_csv(f)
     res = gm.evaluate([1.6, 1.0], spectrum=own)
@@ -286,3 +287,15 @@ def test_reevaluate_a_file_or_object_spectrum(tmp_path):
         reevaluate(res, irradiance_W_m2=500.0).efficiency,
         gm.evaluate([1.6, 1.0], spectrum=own, irradiance_W_m2=500.0).efficiency,
     )
+
+
+def test_constants_are_scipys():
+    # the constants are written out (start-up time); scipy.constants is the reference
+    from scipy import constants as sc
+
+    import gapmatch.units as u
+
+    pairs = [(u.Q, sc.e), (u.H, sc.h), (u.C, sc.c), (u.K_B, sc.k), (u.SIGMA, sc.sigma)]
+    pairs += [(u.EV, sc.eV), (u.AU, sc.au)]
+    for ours, ref in pairs:
+        assert ours == ref  # exact: the same doubles

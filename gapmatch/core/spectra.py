@@ -35,10 +35,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import constants as _sc
 
 from ..errors import InputError, check_range
-from ..units import K_B, SIGMA, C, H
+from ..units import AU, K_B, SIGMA, C, H
 from .planck import PLANCK_PREFACTOR, bose_tail
 
 __all__ = [
@@ -55,7 +54,7 @@ __all__ = [
 #: IAU 2015 nominal solar radius [m]
 SOLAR_RADIUS_M: float = 6.957e8
 #: angular radius of the solar disc seen from 1 au [rad] (about 0.2665 deg)
-SUN_HALF_ANGLE_RAD: float = math.asin(SOLAR_RADIUS_M / _sc.au)
+SUN_HALF_ANGLE_RAD: float = math.asin(SOLAR_RADIUS_M / AU)
 #: dilution factor sin^2(theta_sun), about 2.16e-5
 SUN_DILUTION: float = math.sin(SUN_HALF_ANGLE_RAD) ** 2
 #: thermodynamic maximum concentration 1 / sin^2(theta_sun), about 46,200
