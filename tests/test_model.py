@@ -7,6 +7,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import gapmatch as gm
 from gapmatch import InputError
@@ -299,3 +301,33 @@ def test_constants_are_scipys():
     pairs += [(u.EV, sc.eV), (u.AU, sc.au)]
     for ours, ref in pairs:
         assert ours == ref  # exact: the same doubles
+
+
+@given(
+    st.lists(
+        st.lists(st.floats(0.0, 1e22, allow_nan=False), min_size=1, max_size=6),
+        min_size=1,
+        max_size=5,
+    ).filter(lambda rows: len({len(r) for r in rows}) == 1)
+)
+@settings(max_examples=100, deadline=None)
+def test_step_shares_partition_what_the_stack_absorbs(rows):
+    # invariants of step absorptance (common practice, no source): shares are
+    # non-negative and add up to what the stack absorbs, the largest count above a gap
+    from gapmatch.core.steps import step_shares
+
+    f = np.array(rows)
+    shares, total = step_shares(f)
+    assert np.all(shares >= 0)
+    np.testing.assert_allclose(shares.sum(axis=-1), f.max(axis=-1), rtol=1e-12)
+    np.testing.assert_array_equal(total, f.max(axis=-1))
+
+
+def test_step_shares_agree_with_the_step_optics(am15g):
+    from gapmatch.core.absorption import step_optics
+    from gapmatch.core.steps import step_shares
+
+    g = np.array([[1.9, 1.4, 0.9], [1.2, 1.5, 0.8]]) * EV  # the second out of order
+    np.testing.assert_array_equal(
+        step_optics(g, am15g).phi_abs, step_shares(am15g.photon_flux_above(g))[0]
+    )

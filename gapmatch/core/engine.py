@@ -30,6 +30,7 @@ from .connections import OperatingPoint
 from .diodes import make_diodes
 from .registry import connection_model
 from .spectra import Spectrum, SpectrumSeries
+from .steps import step_shares
 
 __all__ = [
     "step_shares",
@@ -40,28 +41,6 @@ __all__ = [
     "DeviceModel",
     "solve_stacks_nonideal",
 ]
-
-
-def step_shares(above: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Each junction's share of a quantity counted above its gap (step absorptance).
-
-    Parameters
-    ----------
-    above : numpy.ndarray
-        A cumulative quantity above each junction's gap (photon flux, power), shape
-        ``(..., N)``, top junction last axis first.
-
-    Returns
-    -------
-    shares : numpy.ndarray
-        ``max(F_i, max_{j<=i} F_j) - max_{j<i} F_j``, shape ``(..., N)``: what junction
-        ``i`` absorbs of what the junctions above it let through.
-    total : numpy.ndarray
-        What the whole stack absorbs, ``max_i F_i``, shape ``(...)``.
-    """
-    acc = np.maximum.accumulate(above, axis=-1)
-    prev = np.concatenate([np.zeros_like(acc[..., :1]), acc[..., :-1]], axis=-1)
-    return acc - prev, acc[..., -1]
 
 
 def step_photocurrents(gaps_J: np.ndarray, spectrum: Spectrum) -> np.ndarray:
