@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .core.engine import solve_stacks, solve_stacks_nonideal
+from .core.engine import solve_stacks, solve_stacks_nonideal, solve_stacks_series
 from .core.registry import CONNECTIONS, REGISTRY, connection_model
 from .core.spectra import Spectrum
 from .device import build_physics
@@ -30,8 +30,8 @@ from .limits import (
     check_cell_conditions,
     check_gaps,
 )
-from .model import CellConditions, Illumination, Stack
-from .results import BatchResult, Conditions, ThicknessSweep
+from .model import CellConditions, Illumination, IlluminationSeries, Stack
+from .results import BatchResult, Conditions, SeriesResult, ThicknessSweep
 from .units import EV
 
 __all__ = [
@@ -41,6 +41,7 @@ __all__ = [
     "evaluate",
     "solve",
     "reevaluate",
+    "solve_series",
     "evaluate_thickness",
     "thickness_sweep",
     "check_gaps",
@@ -359,6 +360,68 @@ def solve(
         illumination=illumination,
         cell=cell,
     )
+
+
+def solve_series(
+    stack: Stack,
+    illumination: IlluminationSeries,
+    *,
+    temperature_K=300.0,
+    ere=1.0,
+    dark_current: str = "boltzmann",
+) -> SeriesResult:
+    """Solve a batch of stacks under each of a batch of illuminations, in one call.
+
+    Parameters
+    ----------
+    stack : Stack
+        ``M`` ideal stacks (step absorptance; non-ideal physics is not solved here).
+    illumination : IlluminationSeries
+        ``H`` spectra on one wavelength grid, with their durations [h].
+    temperature_K : float or array_like
+        Cell temperature [K], 100-1000: one value, one per illumination ``(H,)``, or one
+        per illumination and junction ``(H, N)``.
+    ere : float or array_like
+        External radiative efficiency in (0, 1], one value or one per junction.
+    dark_current : {"boltzmann", "bose-einstein"}
+        Form of the radiative dark current.
+
+    Returns
+    -------
+    SeriesResult
+
+    Raises
+    ------
+    InputError
+        For non-ideal stacks, or conditions out of range or of the wrong shape.
+
+    References
+    ----------
+    .. [1] W. Shockley and H. J. Queisser, J. Appl. Phys. 32, 510 (1961).
+    """
+    from .errors import check_finite_array
+
+    if stack.physics is not None:
+        raise InputError("stack", "solve_series takes ideal stacks (no opt-in physics)")
+    h, n = len(illumination), stack.n_junctions
+    _, e = check_cell_conditions(n, 300.0, ere, dark_current)
+    t = np.asarray(temperature_K, dtype=float)
+    if t.shape not in ((), (h,), (h, n)):
+        raise InputError(
+            "temperature_K", f"needs one value, one per illumination ({h}) or ({h}, {n})", t.shape
+        )
+    check_finite_array("temperature_K", t, *TEMPERATURE_RANGE_K, unit="K")
+    ratio = None if stack.cells_per_string is None else np.asarray(stack.cells_per_string)
+    sol = solve_stacks_series(
+        stack.gaps_eV * EV,
+        illumination.series,
+        stack.connection,
+        temperature_K=t,
+        ere=e,
+        dark_current=dark_current,
+        vm_ratio=ratio,
+    )
+    return SeriesResult(sol, stack, illumination, t, e, dark_current)
 
 
 def reevaluate(result: BatchResult, *, losses: bool | None = None, **changes) -> BatchResult:

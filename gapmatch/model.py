@@ -9,6 +9,8 @@ another temperature, a report) never re-specifies them:
   scaling (irradiance, concentration); a file is read once, when it is built.
 * :class:`CellConditions` -- cell temperature, external radiative efficiency and the form
   of the dark current, one value for the stack or one per junction.
+* :class:`IlluminationSeries` -- many spectra on one wavelength grid (hours of a year),
+  solved against a batch of stacks at once.
 * :class:`Stack` -- the band gaps of one stack or a batch of stacks, their connection,
   cells per string (voltage matching) and the opt-in non-ideal physics
   (:class:`NonIdealPhysics`).
@@ -34,7 +36,7 @@ from .errors import InputError
 from .io.spectra import get_spectrum
 from .limits import check_cell_conditions
 
-__all__ = ["Illumination", "CellConditions", "NonIdealPhysics", "Stack"]
+__all__ = ["Illumination", "IlluminationSeries", "CellConditions", "NonIdealPhysics", "Stack"]
 
 
 def _frozen_array(a) -> np.ndarray:
@@ -315,3 +317,57 @@ class Stack:
     def is_ideal(self) -> bool:
         """Whether the stack is in the ideal limit (no opt-in physics)."""
         return self.physics is None
+
+
+@dataclass(frozen=True, eq=False)
+class IlluminationSeries:
+    """A batch of illuminations on one wavelength grid (e.g. the daylight hours of a year).
+
+    Parameters
+    ----------
+    series : gapmatch.core.spectra.SpectrumSeries
+        ``H`` spectra [W m^-2 nm^-1] on one wavelength grid [nm].
+    duration_h : numpy.ndarray
+        How long each spectrum lasts [h], ``(H,)`` (1 for hourly data), for energies.
+
+    Notes
+    -----
+    Solved against a batch of stacks in one vectorised call by
+    :func:`gapmatch.api.solve_series` (no Python loop per hour).
+    """
+
+    series: Any
+    duration_h: np.ndarray
+
+    def __post_init__(self) -> None:
+        h = len(self.series)
+        d = np.broadcast_to(np.asarray(self.duration_h, dtype=float), (h,)).copy()
+        if not np.all(np.isfinite(d)) or np.any(d <= 0):
+            raise InputError("duration_h", "every duration must be finite and > 0 h")
+        d.setflags(write=False)
+        object.__setattr__(self, "duration_h", d)
+
+    @classmethod
+    def from_arrays(
+        cls, wavelength_nm, irradiance_W_m2_nm, *, duration_h=1.0, name: str = "spectrum series"
+    ) -> IlluminationSeries:
+        """Build from a wavelength grid [nm], ``(L,)``, and spectra [W m^-2 nm^-1],
+        ``(H, L)``; every spectrum must integrate to a positive irradiance.
+
+        Raises
+        ------
+        InputError
+            For mismatched shapes, non-increasing wavelengths, negative or non-finite
+            irradiance, a spectrum integrating to zero, or a duration <= 0 h.
+        """
+        from .core.spectra import SpectrumSeries
+
+        return cls(SpectrumSeries(wavelength_nm, irradiance_W_m2_nm, name=name), duration_h)
+
+    def __len__(self) -> int:
+        return len(self.series)
+
+    @property
+    def total_irradiance_W_m2(self) -> np.ndarray:
+        """Irradiance of each spectrum [W m^-2], ``(H,)``."""
+        return self.series.total_irradiance_W_m2

@@ -24,9 +24,9 @@ from .units import EV, a_m2_to_ma_cm2
 if TYPE_CHECKING:  # pragma: no cover
     import pandas as pd
 
-    from .model import CellConditions, Illumination, Stack
+    from .model import CellConditions, Illumination, IlluminationSeries, Stack
 
-__all__ = ["Conditions", "BatchResult", "LossTable", "ThicknessSweep"]
+__all__ = ["Conditions", "BatchResult", "LossTable", "ThicknessSweep", "SeriesResult"]
 
 
 @dataclass(frozen=True)
@@ -450,4 +450,78 @@ class ThicknessSweep:
         jph = a_m2_to_ma_cm2(self.result.solution.jph)
         for k in range(self.result.n_junctions):
             cols[f"jph_{k + 1}_mA_cm2"] = jph[:, k]
+        return pd.DataFrame(cols)
+
+
+@dataclass(frozen=True, eq=False)
+class SeriesResult:
+    """``M`` stacks under each of ``H`` illuminations (see :func:`gapmatch.api.solve_series`).
+
+    Attributes
+    ----------
+    solution : StackSolution
+        ``H * M`` rows, illumination-major (row ``h * M + i``: stack ``i`` under
+        illumination ``h``).
+    stack_model : Stack
+        The stacks.
+    illumination : IlluminationSeries
+        The illuminations, with their durations [h].
+    temperature_K : numpy.ndarray
+        Cell temperature [K] per illumination ``(H,)`` or per illumination and junction
+        ``(H, N)``.
+    ere : float or numpy.ndarray
+        External radiative efficiency (one value or one per junction).
+    dark_current : str
+        Form of the radiative dark current.
+    """
+
+    solution: StackSolution
+    stack_model: Stack
+    illumination: IlluminationSeries
+    temperature_K: Any
+    ere: Any
+    dark_current: str
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        """``(H, M)``: illuminations, stacks."""
+        return len(self.illumination), len(self.stack_model)
+
+    @property
+    def pmpp_W_m2(self) -> np.ndarray:
+        """Power density at maximum power [W m^-2], ``(H, M)``."""
+        return self.solution.op.p_mpp.reshape(self.shape)
+
+    @property
+    def efficiency(self) -> np.ndarray:
+        """Efficiency under each illumination (fraction), ``(H, M)``."""
+        return self.pmpp_W_m2 / self.illumination.total_irradiance_W_m2[:, None]
+
+    def energy_Wh_m2(self) -> np.ndarray:
+        """Energy delivered over all illuminations [W h m^-2], ``(M,)``: the sum of
+        power times duration (each stack at its maximum power point throughout)."""
+        return (self.pmpp_W_m2 * self.illumination.duration_h[:, None]).sum(axis=0)
+
+    def energy_efficiency(self) -> np.ndarray:
+        """Delivered over incident energy (fraction), ``(M,)``."""
+        incident = (self.illumination.total_irradiance_W_m2 * self.illumination.duration_h).sum()
+        return self.energy_Wh_m2() / incident
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per illumination and stack: ``illumination`` (0-based index, as the
+        rows were given), ``stack`` (0-based), ``gap_<k>_eV``, ``incident_W_m2``,
+        ``pmpp_W_m2``, ``efficiency_pct``."""
+        import pandas as pd
+
+        h, m = self.shape
+        g = self.stack_model.gaps_eV
+        cols: dict[str, Any] = {
+            "illumination": np.repeat(np.arange(h), m),
+            "stack": np.tile(np.arange(m), h),
+        }
+        for k in range(g.shape[1]):
+            cols[f"gap_{k + 1}_eV"] = np.tile(g[:, k], h)
+        cols["incident_W_m2"] = np.repeat(self.illumination.total_irradiance_W_m2, m)
+        cols["pmpp_W_m2"] = self.pmpp_W_m2.ravel()
+        cols["efficiency_pct"] = 100 * self.efficiency.ravel()
         return pd.DataFrame(cols)

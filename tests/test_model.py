@@ -331,3 +331,35 @@ def test_step_shares_agree_with_the_step_optics(am15g):
     np.testing.assert_array_equal(
         step_optics(g, am15g).phi_abs, step_shares(am15g.photon_flux_above(g))[0]
     )
+
+
+def test_solve_series_equals_one_evaluation_per_hour(am15g):
+    # 24 invented "hours" (demo data, no source): AM1.5G dimmed and reddened, warmer
+    # cells at noon; each row must equal gapmatch.evaluate under that hour alone
+    from gapmatch.api import solve_series
+    from gapmatch.model import IlluminationSeries
+
+    wl = am15g.wavelength_nm
+    k = np.arange(24)
+    scale = 0.2 + 0.8 * np.sin(np.pi * (k + 0.5) / 24)
+    red = (wl / 1000.0)[None, :] ** (0.5 * (1 - scale[:, None]))
+    irr = scale[:, None] * am15g.irradiance_W_m2_nm[None, :] * red
+    t = 290.0 + 40.0 * scale
+    series = IlluminationSeries.from_arrays(wl, irr, duration_h=0.5)
+    gaps = np.array([[1.8, 1.1], [1.7, 1.12], [1.6, 0.95]])
+    res = solve_series(Stack(gaps, "series"), series, temperature_K=t, ere=0.01)
+    assert res.efficiency.shape == (24, 3)
+    for h in (0, 7, 12, 23):
+        one = gm.evaluate(
+            gaps, "series", TabulatedSpectrum(wl, irr[h]), temperature_K=t[h], ere=0.01
+        )
+        # same integration rule, same solver: 1e-12 relative
+        np.testing.assert_allclose(res.efficiency[h], one.efficiency, rtol=1e-12)
+    # energy: power times 0.5 h, summed
+    np.testing.assert_allclose(res.energy_Wh_m2(), 0.5 * res.pmpp_W_m2.sum(axis=0), rtol=1e-14)
+    assert res.to_frame().shape == (72, 7)
+    with pytest.raises(InputError, match="temperature_K"):
+        solve_series(Stack(gaps, "series"), series, temperature_K=np.full(5, 300.0))
+    with pytest.raises(InputError, match="ideal stacks"):
+        nonideal = gm.evaluate(gaps[:1], series_resistance_ohm_cm2=0.1).stack_model
+        solve_series(nonideal, series)
