@@ -246,3 +246,19 @@ def test_evaluate_loads_only_what_it_uses():
         [sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, check=True
     )
     assert out.stdout.strip() == "[]"
+
+
+def test_a_report_without_search_does_not_load_optuna():
+    code = (
+        "import sys\n"
+        "from gapmatch.report import build_report\n"
+        "from gapmatch.study import parse_study\n"
+        'st = parse_study(\'[study]\\nname = "t"\\ntitle = "t"\\nsections = ["stacks"]\\n'
+        '[[stacks]]\\nname = "a"\\ngaps_eV = [1.7, 1.1]\\n\')\n'
+        "build_report(st, progress=False)\n"
+        "print('optuna' in sys.modules)\n"
+    )
+    out = subprocess.run(
+        [sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, check=True
+    )
+    assert out.stdout.strip() == "False"
