@@ -34,7 +34,7 @@ from .core.registry import CONNECTIONS
 from .core.spectra import Spectrum
 from .errors import InputError
 from .io.spectra import get_spectrum
-from .limits import check_cell_conditions
+from .limits import check_cell_conditions, check_gaps
 
 __all__ = ["Illumination", "IlluminationSeries", "CellConditions", "NonIdealPhysics", "Stack"]
 
@@ -293,7 +293,8 @@ class Stack:
     physics: NonIdealPhysics | None = None
 
     def __post_init__(self) -> None:
-        g = np.atleast_2d(np.array(self.gaps_eV, dtype=float))
+        # shape and range (order is the caller's choice: maps evaluate every pair)
+        g = np.array(check_gaps(self.gaps_eV, require_descending=False), dtype=float)
         g.setflags(write=False)
         object.__setattr__(self, "gaps_eV", g)
         if self.connection not in CONNECTIONS:
@@ -301,9 +302,14 @@ class Stack:
                 "connection", f"must be one of {', '.join(CONNECTIONS)}", self.connection
             )
         if self.cells_per_string is not None:
-            object.__setattr__(
-                self, "cells_per_string", tuple(int(x) for x in self.cells_per_string)
-            )
+            r = tuple(int(x) for x in self.cells_per_string)
+            if len(r) != g.shape[1] or min(r) < 1 or r != tuple(self.cells_per_string):
+                raise InputError(
+                    "cells_per_string",
+                    f"needs {g.shape[1]} whole numbers >= 1, one per junction",
+                    self.cells_per_string,
+                )
+            object.__setattr__(self, "cells_per_string", r)
 
     @property
     def n_junctions(self) -> int:

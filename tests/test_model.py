@@ -363,3 +363,16 @@ def test_solve_series_equals_one_evaluation_per_hour(am15g):
     with pytest.raises(InputError, match="ideal stacks"):
         nonideal = gm.evaluate(gaps[:1], series_resistance_ohm_cm2=0.1).stack_model
         solve_series(nonideal, series)
+
+
+@pytest.mark.parametrize(
+    "kwargs, field",
+    [
+        (dict(gaps_eV=[[1.7, 7.0]]), "gaps_eV"),
+        (dict(gaps_eV=[[1.7, 1.1]], connection="parallel"), "connection"),
+        (dict(gaps_eV=[[1.7, 1.1]], connection="voltage-matched", cells_per_string=(1,)), "cells"),
+    ],
+)
+def test_stack_validates_itself(kwargs, field):
+    with pytest.raises(InputError, match=field):
+        Stack(**kwargs)
