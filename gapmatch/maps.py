@@ -41,14 +41,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .api import GAP_RANGE_EV, MAX_JUNCTIONS, check_cell_conditions, check_gaps
-from .core.connections import CONNECTIONS
 from .core.engine import solve_stacks
+from .core.registry import CONNECTIONS
 from .core.spectra import Spectrum
 from .errors import InputError, check_range
-from .io.spectra import get_spectrum
+from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, check_cell_conditions, check_gaps
+from .model import Illumination
 from .results import Conditions
-from .units import EV
+from .units import EV, a_m2_to_ma_cm2
 
 __all__ = [
     "MAP_CONNECTIONS",
@@ -64,8 +64,6 @@ __all__ = [
 
 #: connections a map can be computed for
 MAP_CONNECTIONS = tuple(CONNECTIONS)
-#: largest number of grid points of one map
-MAX_MAP_POINTS = 1_000_000
 #: what happens to the junctions that are not on the map's axes
 OTHERS_MODES = ("fixed", "optimised")
 #: engine evaluations per batch when re-optimising free gaps (memory bound)
@@ -343,7 +341,29 @@ class MapResult:
         j = self.jph_mA_cm2[connection]
         return j[:, :, self.axes[0] - 1] - j[:, :, self.axes[1] - 1]
 
-    def value_at(self, connection: str, x_eV: float, y_eV: float) -> float:  # noqa: N803
+    def matched_current_line(self, connection: str = "series") -> tuple[np.ndarray, np.ndarray]:
+        """Current-matched curve of the two axis junctions.
+
+        Returns
+        -------
+        tuple of numpy.ndarray
+            ``(x_eV, y_eV)``: for every first-axis gap [eV], the second-axis gap [eV]
+            where the two axis junctions' photocurrents are equal (linear interpolation
+            between grid points), NaN where there is none.
+        """
+        ex = self.current_excess_mA_cm2(connection)
+        ys = np.full(self.x_eV.size, np.nan)
+        s = np.sign(ex)
+        change = (s[:-1] * s[1:] <= 0) & (s[:-1] != s[1:]) & self.descending[:-1]
+        for_cols = change.any(axis=0)
+        iy = np.argmax(change, axis=0)
+        cols = np.flatnonzero(for_cols)
+        e0, e1 = ex[iy[cols], cols], ex[iy[cols] + 1, cols]
+        f = e0 / (e0 - e1)
+        ys[cols] = self.y_eV[iy[cols]] + f * (self.y_eV[iy[cols] + 1] - self.y_eV[iy[cols]])
+        return self.x_eV, ys
+
+    def value_at(self, connection: str, x_eV: float, y_eV: float) -> float:
         """Efficiency (fraction) at the grid point nearest to ``(x_eV, y_eV)``."""
         eff = self._check_connection(connection)
         ix = int(np.argmin(np.abs(self.x_eV - x_eV)))
@@ -460,9 +480,25 @@ class CutResult:
 
 
 # ---- computation ---------------------------------------------------------------------------
-def _conditions(n: int, spectrum, temperature_K, ere, dark_current, spectrum_kw):  # noqa: N803
+_SPECTRUM_DEFAULTS = {
+    "spectrum_file": None,
+    "sun_temperature_K": 6000.0,
+    "irradiance_W_m2": None,
+    "concentration": 1.0,
+}
+
+
+def _conditions(n: int, spectrum, temperature_K, ere, dark_current, spectrum_kw):
     t, e = check_cell_conditions(n, temperature_K, ere, dark_current)
-    spec = get_spectrum(spectrum, **spectrum_kw)
+    if isinstance(spectrum, Illumination):
+        illum = spectrum
+        changed = {k: v for k, v in spectrum_kw.items() if v != _SPECTRUM_DEFAULTS.get(k)}
+        if changed:
+            k = next(iter(changed))
+            raise InputError(k, "is part of the Illumination given as spectrum", changed[k])
+    else:
+        illum = Illumination.from_options(spectrum, **spectrum_kw)
+    spec = illum.spectrum
     cond = Conditions(
         spectrum=spec.describe(),
         incident_W_m2=spec.total_irradiance_W_m2,
@@ -485,10 +521,10 @@ def _check_connections(connections) -> tuple[str, ...]:
     return tuple(dict.fromkeys(conns))
 
 
-def _efficiency(gaps_eV: np.ndarray, spec, conn, t, e, dark):  # noqa: N803
+def _efficiency(gaps_eV: np.ndarray, spec, conn, t, e, dark):
     """Efficiency (fraction) and photocurrents [mA cm^-2] of a batch, unchecked."""
-    sol = solve_stacks(gaps_eV * EV, spec, conn, temperature_K=t, ere=e, dark_model=dark)
-    return sol.op.p_mpp / sol.incident_W_m2, 0.1 * sol.jph
+    sol = solve_stacks(gaps_eV * EV, spec, conn, temperature_K=t, ere=e, dark_current=dark)
+    return sol.op.p_mpp / sol.incident_W_m2, a_m2_to_ma_cm2(sol.jph)
 
 
 def _optimise_free(
@@ -503,7 +539,7 @@ def _optimise_free(
     *,
     budget: int = 4_000_000,
     xtol_eV: float = 2e-4,
-) -> np.ndarray:  # noqa: N803
+) -> np.ndarray:
     """Re-optimise the ``free`` gaps of every row of ``gaps`` (``(P, N)`` eV), batched.
 
     A coarse grid over the free gaps picks a start for every row; a batched pattern
@@ -559,19 +595,19 @@ def _optimise_free(
 def compute_map(
     connections=("series", "independent"),
     *,
-    x_range_eV: tuple[float, float] = (0.5, 2.5),  # noqa: N803
-    y_range_eV: tuple[float, float] | None = None,  # noqa: N803
-    step_eV: float = 0.01,  # noqa: N803
-    stack_eV=None,  # noqa: N803
+    x_range_eV: tuple[float, float] = (0.5, 2.5),
+    y_range_eV: tuple[float, float] | None = None,
+    step_eV: float = 0.01,
+    stack_eV=None,
     axes: tuple[int, int] | None = None,
     others: str = "fixed",
-    free_range_eV: tuple[float, float] = (0.3, 3.0),  # noqa: N803
-    spectrum: str | Spectrum = "AM1.5G",
+    free_range_eV: tuple[float, float] = (0.3, 3.0),
+    spectrum: str | Spectrum | Illumination = "AM1.5G",
     spectrum_file=None,
-    sun_temperature_K: float = 6000.0,  # noqa: N803
-    irradiance_W_m2: float | None = None,  # noqa: N803
+    sun_temperature_K: float = 6000.0,
+    irradiance_W_m2: float | None = None,
     concentration: float = 1.0,
-    temperature_K=300.0,  # noqa: N803
+    temperature_K=300.0,
     ere=1.0,
     dark_current: str = "boltzmann",
     progress=None,
@@ -723,13 +759,13 @@ def _pair(name: str, value) -> tuple[float, float]:
 
 
 def compute_cut(
-    base_gaps_eV,  # noqa: N803
+    base_gaps_eV,
     junction: int = 1,
-    values_eV=None,  # noqa: N803
+    values_eV=None,
     connections=("series", "independent"),
     *,
-    spectrum: str | Spectrum = "AM1.5G",
-    temperature_K=300.0,  # noqa: N803
+    spectrum: str | Spectrum | Illumination = "AM1.5G",
+    temperature_K=300.0,
     ere=1.0,
     dark_current: str = "boltzmann",
     **spectrum_kw,

@@ -13,15 +13,20 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 
 from .core.engine import StackSolution
-from .units import EV
+from .core.registry import connection_model
+from .units import EV, a_m2_to_ma_cm2
 
-__all__ = ["Conditions", "BatchResult", "LossTable"]
+if TYPE_CHECKING:  # pragma: no cover
+    import pandas as pd
+
+    from .model import CellConditions, Illumination, IlluminationSeries, Stack
+
+__all__ = ["Conditions", "BatchResult", "LossTable", "ThicknessSweep", "SeriesResult"]
 
 
 @dataclass(frozen=True)
@@ -102,8 +107,11 @@ class LossTable:
 
     def to_frame(self) -> pd.DataFrame:
         """One row per stack: ``gap_i_eV``, ``<term>_W_m2`` for every term (stack totals,
+
         ``output_W_m2`` last but one), ``incident_W_m2`` and ``closure_rel`` (relative
         closure error)."""
+        import pandas as pd
+
         cols: dict[str, Any] = {}
         for i in range(self.gaps_eV.shape[1]):
             cols[f"gap_{i + 1}_eV"] = self.gaps_eV[:, i]
@@ -115,7 +123,10 @@ class LossTable:
 
     def junction_frame(self) -> pd.DataFrame:
         """One row per junction: ``stack``, ``junction`` (1 = top), ``gap_eV`` and
+
         ``<term>_W_m2`` for every per-junction term, ``output_W_m2`` last."""
+        import pandas as pd
+
         b = self.breakdown
         m, n = self.gaps_eV.shape
         cols: dict[str, Any] = {
@@ -184,7 +195,16 @@ class BatchResult:
     solution : StackSolution
         The raw SI arrays (see :class:`gapmatch.core.engine.StackSolution`).
     conditions : Conditions
-        What the batch was evaluated under.
+        What the batch was evaluated under, in words and numbers (for JSON and reports).
+    input_gaps_eV : numpy.ndarray, optional
+        The gaps as given [eV], ``(M, N)`` (with a gap temperature model: at its
+        reference temperature).
+    stack_model : Stack, optional
+        The stack it was solved for (connection, cells per string, non-ideal physics).
+    illumination : Illumination, optional
+        The incident light.
+    cell : CellConditions, optional
+        Cell temperature, ERE and dark-current form.
 
     Notes
     -----
@@ -196,7 +216,10 @@ class BatchResult:
     connection: str
     solution: StackSolution
     conditions: Conditions
-    input_gaps_eV: np.ndarray | None = None  # noqa: N815 - the gaps as given, for display
+    input_gaps_eV: np.ndarray | None = None
+    stack_model: Stack | None = None
+    illumination: Illumination | None = None
+    cell: CellConditions | None = None
 
     # ---- arrays (SI unless the name says otherwise) -----------------------------------
     def __len__(self) -> int:
@@ -208,14 +231,14 @@ class BatchResult:
         return self.solution.gaps_J.shape[1]
 
     @property
-    def gaps_eV(self) -> np.ndarray:  # noqa: N802
+    def gaps_eV(self) -> np.ndarray:
         """Band gaps [eV], ``(M, N)``, top junction first."""
         if self.input_gaps_eV is not None:
             return self.input_gaps_eV
         return self.solution.gaps_J / EV
 
     @property
-    def pmpp_W_m2(self) -> np.ndarray:  # noqa: N802
+    def pmpp_W_m2(self) -> np.ndarray:
         """Power density at maximum power [W m^-2], ``(M,)``."""
         return self.solution.op.p_mpp
 
@@ -228,7 +251,7 @@ class BatchResult:
     def ff(self) -> np.ndarray:
         """Fill factor (fraction), ``(M,)``."""
         op = self.solution.op
-        if self.connection == "independent":
+        if not connection_model(self.connection).has_stack_terminals:
             denom = (self.solution.voc_junction * self.solution.jph).sum(axis=1)
         else:
             denom = op.voc * op.jsc
@@ -266,6 +289,7 @@ class BatchResult:
     def to_frame(self) -> pd.DataFrame:
         """One row per stack, in the units people read.
 
+
         Returns
         -------
         pandas.DataFrame
@@ -273,6 +297,8 @@ class BatchResult:
             ``pmpp_W_m2``, ``voc_V``, ``jsc_mA_cm2``, ``ff``, ``vmpp_V``, ``jmpp_mA_cm2``,
             ``mismatch_ratio`` and, for voltage matching, ``cells_per_string``.
         """
+        import pandas as pd
+
         op = self.solution.op
         cols: dict[str, Any] = {}
         for i in range(self.n_junctions):
@@ -282,10 +308,10 @@ class BatchResult:
             efficiency_pct=100 * self.efficiency,
             pmpp_W_m2=op.p_mpp,
             voc_V=op.voc,
-            jsc_mA_cm2=op.jsc * 0.1,
+            jsc_mA_cm2=a_m2_to_ma_cm2(op.jsc),
             ff=self.ff,
             vmpp_V=op.v_mpp,
-            jmpp_mA_cm2=op.j_mpp * 0.1,
+            jmpp_mA_cm2=a_m2_to_ma_cm2(op.j_mpp),
             mismatch_ratio=self.mismatch_ratio,
         )
         if op.ratio is not None:
@@ -295,6 +321,7 @@ class BatchResult:
     def junction_frame(self) -> pd.DataFrame:
         """One row per junction of every stack (long format).
 
+
         Returns
         -------
         pandas.DataFrame
@@ -302,6 +329,8 @@ class BatchResult:
             ``jsc_mA_cm2``, ``voc_V``, ``v_op_V``, ``j_op_mA_cm2``, ``p_op_W_m2``,
             ``power_share_pct``.
         """
+        import pandas as pd
+
         s = self.solution
         m, n = s.gaps_J.shape
         return pd.DataFrame(
@@ -309,11 +338,11 @@ class BatchResult:
                 "stack": np.repeat(np.arange(m), n),
                 "junction": np.tile(np.arange(1, n + 1), m),
                 "gap_eV": self.gaps_eV.ravel(),
-                "jph_mA_cm2": 0.1 * s.jph.ravel(),
-                "jsc_mA_cm2": 0.1 * s.jph.ravel(),
+                "jph_mA_cm2": a_m2_to_ma_cm2(s.jph.ravel()),
+                "jsc_mA_cm2": a_m2_to_ma_cm2(s.jph.ravel()),
                 "voc_V": s.voc_junction.ravel(),
                 "v_op_V": s.op.v_junction.ravel(),
-                "j_op_mA_cm2": 0.1 * s.op.j_junction.ravel(),
+                "j_op_mA_cm2": a_m2_to_ma_cm2(s.op.j_junction.ravel()),
                 "p_op_W_m2": s.op.p_junction.ravel(),
                 "power_share_pct": 100 * self.power_share.ravel(),
             }
@@ -346,10 +375,10 @@ class BatchResult:
             "connection": self.connection,
             "pmpp_W_m2": float(op.p_mpp[i]),
             "voc_V": _num(op.voc[i]),
-            "jsc_mA_cm2": _num(0.1 * op.jsc[i]),
+            "jsc_mA_cm2": _num(a_m2_to_ma_cm2(op.jsc[i])),
             "ff": float(self.ff[i]),
             "vmpp_V": _num(op.v_mpp[i]),
-            "jmpp_mA_cm2": _num(0.1 * op.j_mpp[i]),
+            "jmpp_mA_cm2": _num(a_m2_to_ma_cm2(op.j_mpp[i])),
             "mismatch_ratio": float(self.mismatch_ratio[i]),
             "absorbed_W_m2": float(s.absorbed_W_m2[i]),
             "incident_W_m2": float(s.incident_W_m2),
@@ -361,11 +390,11 @@ class BatchResult:
             {
                 "junction": k + 1,
                 "gap_eV": float(self.gaps_eV[i, k]),
-                "jph_mA_cm2": float(0.1 * s.jph[i, k]),
-                "jsc_mA_cm2": float(0.1 * s.jph[i, k]),
+                "jph_mA_cm2": float(a_m2_to_ma_cm2(s.jph[i, k])),
+                "jsc_mA_cm2": float(a_m2_to_ma_cm2(s.jph[i, k])),
                 "voc_V": float(s.voc_junction[i, k]),
                 "v_op_V": float(op.v_junction[i, k]),
-                "j_op_mA_cm2": float(0.1 * op.j_junction[i, k]),
+                "j_op_mA_cm2": float(a_m2_to_ma_cm2(op.j_junction[i, k])),
                 "p_op_W_m2": float(op.p_junction[i, k]),
                 "power_share": float(self.power_share[i, k]),
             }
@@ -376,7 +405,123 @@ class BatchResult:
             if "gaps_ref_J" in ex:
                 row["gap_cell_eV"] = float(s.gaps_J[i, k] / EV)
             if "jph_total" in ex:
-                row["jph_total_mA_cm2"] = float(0.1 * ex["jph_total"][i, k])
+                row["jph_total_mA_cm2"] = float(a_m2_to_ma_cm2(ex["jph_total"][i, k]))
         if s.losses is not None:
             out["losses_W_m2"] = self.losses.stack(i)
         return out
+
+
+@dataclass(frozen=True, eq=False)
+class ThicknessSweep:
+    """Efficiency of one stack as one junction's absorber thickness varies.
+
+    Attributes
+    ----------
+    thickness_nm : numpy.ndarray
+        Thicknesses of junction ``junction`` [nm], ``(M,)``.
+    junction : int
+        The varied junction (1 = top).
+    result : BatchResult
+        One row per thickness.
+    """
+
+    thickness_nm: np.ndarray
+    junction: int
+    result: BatchResult
+
+    @property
+    def efficiency_pct(self) -> np.ndarray:
+        """Efficiency [%] at every thickness, ``(M,)``."""
+        return 100.0 * self.result.efficiency
+
+    def best(self) -> int:
+        """Index of the most efficient thickness."""
+        return int(np.argmax(self.efficiency_pct))
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per thickness: ``thickness_nm``, ``efficiency_pct`` and
+        ``jph_<k>_mA_cm2`` (photocurrent of junction ``k``, 1 = top)."""
+        import pandas as pd
+
+        cols: dict[str, Any] = {
+            f"thickness_{self.junction}_nm": self.thickness_nm,
+            "efficiency_pct": self.efficiency_pct,
+        }
+        jph = a_m2_to_ma_cm2(self.result.solution.jph)
+        for k in range(self.result.n_junctions):
+            cols[f"jph_{k + 1}_mA_cm2"] = jph[:, k]
+        return pd.DataFrame(cols)
+
+
+@dataclass(frozen=True, eq=False)
+class SeriesResult:
+    """``M`` stacks under each of ``H`` illuminations (see :func:`gapmatch.api.solve_series`).
+
+    Attributes
+    ----------
+    solution : StackSolution
+        ``H * M`` rows, illumination-major (row ``h * M + i``: stack ``i`` under
+        illumination ``h``).
+    stack_model : Stack
+        The stacks.
+    illumination : IlluminationSeries
+        The illuminations, with their durations [h].
+    temperature_K : numpy.ndarray
+        Cell temperature [K] per illumination ``(H,)`` or per illumination and junction
+        ``(H, N)``.
+    ere : float or numpy.ndarray
+        External radiative efficiency (one value or one per junction).
+    dark_current : str
+        Form of the radiative dark current.
+    """
+
+    solution: StackSolution
+    stack_model: Stack
+    illumination: IlluminationSeries
+    temperature_K: Any
+    ere: Any
+    dark_current: str
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        """``(H, M)``: illuminations, stacks."""
+        return len(self.illumination), len(self.stack_model)
+
+    @property
+    def pmpp_W_m2(self) -> np.ndarray:
+        """Power density at maximum power [W m^-2], ``(H, M)``."""
+        return self.solution.op.p_mpp.reshape(self.shape)
+
+    @property
+    def efficiency(self) -> np.ndarray:
+        """Efficiency under each illumination (fraction), ``(H, M)``."""
+        return self.pmpp_W_m2 / self.illumination.total_irradiance_W_m2[:, None]
+
+    def energy_Wh_m2(self) -> np.ndarray:
+        """Energy delivered over all illuminations [W h m^-2], ``(M,)``: the sum of
+        power times duration (each stack at its maximum power point throughout)."""
+        return (self.pmpp_W_m2 * self.illumination.duration_h[:, None]).sum(axis=0)
+
+    def energy_efficiency(self) -> np.ndarray:
+        """Delivered over incident energy (fraction), ``(M,)``."""
+        incident = (self.illumination.total_irradiance_W_m2 * self.illumination.duration_h).sum()
+        return self.energy_Wh_m2() / incident
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per illumination and stack: ``illumination`` (0-based index, as the
+        rows were given), ``stack`` (0-based), ``gap_<k>_eV``, ``incident_W_m2``,
+        ``pmpp_W_m2``, ``efficiency_pct``."""
+        import pandas as pd
+
+        h, m = self.shape
+        g = self.stack_model.gaps_eV
+        cols: dict[str, Any] = {
+            "illumination": np.repeat(np.arange(h), m),
+            "stack": np.tile(np.arange(m), h),
+        }
+        for k in range(g.shape[1]):
+            cols[f"gap_{k + 1}_eV"] = np.tile(g[:, k], h)
+        cols["incident_W_m2"] = np.repeat(self.illumination.total_irradiance_W_m2, m)
+        cols["pmpp_W_m2"] = self.pmpp_W_m2.ravel()
+        cols["efficiency_pct"] = 100 * self.efficiency.ravel()
+        return pd.DataFrame(cols)

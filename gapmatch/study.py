@@ -19,27 +19,30 @@ Minimal example::
     name = "candidate A"
     gaps_eV = [1.72, 1.12]
 
-Other features add their own tables with :func:`register_table` (schema objects
-:class:`Table`, :class:`Num`, :class:`Int`, :class:`Str`, :class:`Choice`,
-:class:`List`, :class:`Records`); their validated content is in ``Study.extra``.
+Other features add their own tables with :func:`register_table` (schema objects of
+:mod:`gapmatch.schema`: :class:`Table`, :class:`Num`, :class:`Int`, :class:`Str`,
+:class:`Choice`, :class:`List`, :class:`Records`); their validated content is in
+``Study.extra``. Report section names are checked as names here and against the
+section registry by the report (before it computes anything).
 """
 
 from __future__ import annotations
 
-import difflib
 import hashlib
 import re
 import tomllib
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
-from typing import Any
 
-from .api import GAP_RANGE_EV, MAX_JUNCTIONS, TEMPERATURE_RANGE_K, check_gaps
-from .core.connections import CONNECTIONS
 from .core.diodes import DARK_MODELS
+from .core.registry import CONNECTIONS
 from .core.spectra import MAX_CONCENTRATION
 from .errors import InputError
 from .io.spectra import SPECTRUM_CHOICES
+from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, TEMPERATURE_RANGE_K, check_gaps
+from .model import CellConditions, Illumination
+from .schema import Bool, Choice, Field, Int, List, Num, Records, Str, Table
 
 __all__ = [
     "Study",
@@ -59,274 +62,10 @@ __all__ = [
     "Choice",
     "List",
     "Records",
+    "Field",
 ]
 
-_MISSING = object()
-
-
-# ---- a small schema language ----------------------------------------------------------------
-class Field:
-    """Base of the schema nodes; ``check(value, path)`` returns the validated value."""
-
-    def __init__(self, default: Any = _MISSING, doc: str = "") -> None:
-        self.default = default
-        self.doc = doc
-
-    @property
-    def required(self) -> bool:
-        return self.default is _MISSING
-
-    def describe(self) -> str:  # pragma: no cover - overridden
-        return "a value"
-
-    def check(self, value: Any, path: str) -> Any:  # pragma: no cover - overridden
-        return value
-
-
-def _typename(value: Any) -> str:
-    if isinstance(value, bool):
-        return "a boolean"
-    if isinstance(value, int):
-        return "an integer"
-    if isinstance(value, float):
-        return "a number"
-    if isinstance(value, str):
-        return "a string"
-    if isinstance(value, list):
-        return "an array"
-    if isinstance(value, dict):
-        return "a table"
-    return type(value).__name__
-
-
-class Num(Field):
-    """A number (TOML float or integer) in ``[low, high]`` (open ends optional)."""
-
-    def __init__(
-        self,
-        low: float,
-        high: float,
-        unit: str = "",
-        *,
-        low_open: bool = False,
-        default: Any = _MISSING,
-        doc: str = "",
-    ) -> None:
-        super().__init__(default, doc)
-        self.low, self.high, self.unit, self.low_open = low, high, unit, low_open
-
-    def describe(self) -> str:
-        u = f" {self.unit}" if self.unit else ""
-        lb = "(" if self.low_open else "["
-        return f"a number in {lb}{self.low:g}, {self.high:g}]{u}"
-
-    def check(self, value, path):
-        if isinstance(value, bool) or not isinstance(value, int | float):
-            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
-        x = float(value)
-        ok = (x > self.low if self.low_open else x >= self.low) and x <= self.high
-        if not ok or x != x:
-            raise InputError(path, f"out of range: must be {self.describe()}", value)
-        return x
-
-
-class Int(Field):
-    """A whole number in ``[low, high]``."""
-
-    def __init__(self, low: int, high: int, *, default: Any = _MISSING, doc: str = "") -> None:
-        super().__init__(default, doc)
-        self.low, self.high = low, high
-
-    def describe(self) -> str:
-        return f"a whole number in [{self.low}, {self.high}]"
-
-    def check(self, value, path):
-        if isinstance(value, bool) or not isinstance(value, int):
-            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
-        if not self.low <= value <= self.high:
-            raise InputError(path, f"out of range: must be {self.describe()}", value)
-        return value
-
-
-class Bool(Field):
-    """``true`` or ``false``."""
-
-    def describe(self) -> str:
-        return "true or false"
-
-    def check(self, value, path):
-        if not isinstance(value, bool):
-            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
-        return value
-
-
-class Str(Field):
-    """A string of at most ``max_len`` characters, optionally matching ``pattern``."""
-
-    def __init__(
-        self,
-        *,
-        max_len: int = 500,
-        pattern: str | None = None,
-        pattern_doc: str = "",
-        min_len: int = 0,
-        default: Any = _MISSING,
-        doc: str = "",
-    ) -> None:
-        super().__init__(default, doc)
-        self.max_len, self.min_len = max_len, min_len
-        self.pattern = re.compile(pattern) if pattern else None
-        self.pattern_doc = pattern_doc
-
-    def describe(self) -> str:
-        extra = f" ({self.pattern_doc})" if self.pattern_doc else ""
-        return f"a string of {self.min_len} to {self.max_len} characters{extra}"
-
-    def check(self, value, path):
-        if not isinstance(value, str):
-            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
-        if not self.min_len <= len(value) <= self.max_len:
-            raise InputError(path, f"out of range: must be {self.describe()}", value)
-        if self.pattern and not self.pattern.fullmatch(value):
-            raise InputError(path, f"must be {self.describe()}", value)
-        return value
-
-
-class Choice(Field):
-    """One of a fixed set of strings (the set may be given as a callable, evaluated at
-    validation time)."""
-
-    def __init__(self, choices, *, default: Any = _MISSING, doc: str = "") -> None:
-        super().__init__(default, doc)
-        self._choices = choices
-
-    @property
-    def choices(self) -> tuple[str, ...]:
-        c = self._choices() if callable(self._choices) else self._choices
-        return tuple(c)
-
-    def describe(self) -> str:
-        return "one of " + ", ".join(f"'{c}'" for c in self.choices)
-
-    def check(self, value, path):
-        if not isinstance(value, str):
-            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
-        if value not in self.choices:
-            close = difflib.get_close_matches(value, self.choices, n=1, cutoff=0.6)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
-            raise InputError(path, f"must be {self.describe()}{hint}", value)
-        return value
-
-
-class List(Field):
-    """An array of ``item`` values with ``min_len`` to ``max_len`` entries."""
-
-    def __init__(
-        self,
-        item: Field,
-        *,
-        min_len: int = 0,
-        max_len: int = 1000,
-        unique: bool = False,
-        default: Any = _MISSING,
-        doc: str = "",
-    ) -> None:
-        super().__init__(default, doc)
-        self.item, self.min_len, self.max_len, self.unique = item, min_len, max_len, unique
-
-    def describe(self) -> str:
-        n = (
-            f"{self.min_len}"
-            if self.min_len == self.max_len
-            else f"{self.min_len} to {self.max_len}"
-        )
-        return f"an array of {n} entries, each {self.item.describe()}"
-
-    def check(self, value, path):
-        if not isinstance(value, list):
-            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
-        if not self.min_len <= len(value) <= self.max_len:
-            raise InputError(
-                path, f"out of range: must be {self.describe()} (has {len(value)})", value
-            )
-        out = [self.item.check(v, f"{path}[{i + 1}]") for i, v in enumerate(value)]
-        if self.unique and len(set(map(repr, out))) != len(out):
-            raise InputError(path, "entries must not repeat", value)
-        return out
-
-
-class Table(Field):
-    """A TOML table with known keys; unknown keys are errors with a suggestion."""
-
-    def __init__(self, fields: dict[str, Field], *, default: Any = _MISSING, doc: str = "") -> None:
-        super().__init__(default, doc)
-        self.fields = fields
-
-    def describe(self) -> str:
-        return "a table"
-
-    def check(self, value, path):
-        if not isinstance(value, dict):
-            raise InputError(
-                path or "study file", f"must be a table, not {_typename(value)}", value
-            )
-        out: dict[str, Any] = {}
-        for key in value:
-            if key not in self.fields:
-                kp = f"{path}.{key}" if path else key
-                close = difflib.get_close_matches(key, list(self.fields), n=1, cutoff=0.6)
-                hint = f"did you mean '{close[0]}'? " if close else ""
-                allowed = ", ".join(self.fields) or "none"
-                raise InputError(kp, f"unknown key; {hint}(allowed here: {allowed})")
-        for key, spec in self.fields.items():
-            kp = f"{path}.{key}" if path else key
-            if key in value:
-                out[key] = spec.check(value[key], kp)
-            elif spec.required:
-                raise InputError(kp, f"is required: {spec.describe()}")
-            else:
-                d = spec.default
-                d = d() if callable(d) else d
-                # an omitted table gets every default of its own keys
-                out[key] = spec.check(d, kp) if isinstance(spec, Table) else d
-        return out
-
-
-class Records(Field):
-    """An array of tables (``[[name]]``), each checked against ``table``."""
-
-    def __init__(
-        self, table: Table, *, max_len: int = 100, default: Any = list, doc: str = ""
-    ) -> None:
-        super().__init__(default, doc)
-        self.table, self.max_len = table, max_len
-
-    def describe(self) -> str:
-        return f"an array of at most {self.max_len} tables"
-
-    def check(self, value, path):
-        if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
-            raise InputError(
-                path, f"must be {self.describe()} (write [[{path}]] entries)", _typename(value)
-            )
-        if len(value) > self.max_len:
-            raise InputError(path, f"out of range: at most {self.max_len} entries", len(value))
-        return [self.table.check(v, f"{path}[{i + 1}]") for i, v in enumerate(value)]
-
-
 # ---- the study schema ---------------------------------------------------------------------
-def _section_names() -> tuple[str, ...]:
-    from .report.sections import SECTIONS
-
-    return tuple(SECTIONS)
-
-
-def _default_sections() -> list[str]:
-    from .report.sections import DEFAULT_SECTIONS
-
-    return list(DEFAULT_SECTIONS)
-
-
 _GAP = Num(*GAP_RANGE_EV, "eV")
 _NAME = Str(min_len=1, max_len=120)
 
@@ -352,12 +91,19 @@ STUDY_SCHEMA = Table(
                     unique=True,
                     default=lambda: ["series", "independent"],
                 ),
+                # names only: the report checks them against its registry before it
+                # computes anything (gapmatch.report.registry.check_section_names)
                 "sections": List(
-                    Choice(_section_names),
+                    Str(
+                        min_len=1,
+                        max_len=80,
+                        pattern=r"[a-z0-9][a-z0-9_-]*",
+                        pattern_doc="a report section name, e.g. 'map'",
+                    ),
                     min_len=1,
                     max_len=100,
                     unique=True,
-                    default=_default_sections,
+                    default=list,
                 ),
             }
         ),
@@ -528,7 +274,7 @@ class Study:
     connections : list of str
         Connections to compare.
     sections : list of str
-        Report sections, in order.
+        Report section names, in order (empty: the report's default sections).
     conditions : dict
         Keyword arguments for :func:`gapmatch.evaluate` (spectrum and conditions;
         ``spectrum_file`` resolved relative to the study file).
@@ -579,15 +325,15 @@ class Study:
         c = [x for x in self.connections if x != "voltage-matched"]
         return c or ["series", "independent"]
 
-    def map_kwargs(self) -> dict:
-        """Keyword arguments of :func:`gapmatch.maps.compute_map`."""
+    def map_settings(self) -> dict:
+        """Keyword arguments of :func:`gapmatch.maps.compute_map` that describe the map
+        itself (connections, ranges, step, stack and axes), without the conditions."""
         m = self.map
         kw = dict(
             connections=self.map_connections,
             x_range_eV=tuple(m["x_range_eV"]),
             y_range_eV=tuple(m["y_range_eV"]),
             step_eV=m["step_eV"],
-            **self.conditions,
         )
         if m["stack_eV"] is not None:
             kw.update(
@@ -597,6 +343,24 @@ class Study:
                 free_range_eV=tuple(m["free_range_eV"]),
             )
         return kw
+
+    @property
+    def cell(self) -> CellConditions:
+        """The study's cell conditions."""
+        c = self.conditions
+        return CellConditions(c["temperature_K"], c["ere"], c["dark_current"])
+
+    @cached_property
+    def illumination(self) -> Illumination:
+        """The study's illumination, built (and a spectrum file read) once."""
+        c = self.conditions
+        return Illumination.from_options(
+            c["spectrum"],
+            spectrum_file=c["spectrum_file"],
+            sun_temperature_K=c["sun_temperature_K"],
+            irradiance_W_m2=c["irradiance_W_m2"],
+            concentration=c["concentration"],
+        )
 
 
 _POS_RE = re.compile(r"\(at line (\d+), column (\d+)\)")
@@ -707,8 +471,6 @@ def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
                 f"must be at most the width of map.{key} ({hi - lo:g} eV)",
                 m["step_eV"],
             )
-    from .maps import MAX_MAP_POINTS
-
     npts = ((m["x_range_eV"][1] - m["x_range_eV"][0]) / m["step_eV"] + 1) * (
         (m["y_range_eV"][1] - m["y_range_eV"][0]) / m["step_eV"] + 1
     )

@@ -1,14 +1,19 @@
 """Physical constants and unit conversions used at the edges of the package.
 
-All constants come from :mod:`scipy.constants` (CODATA). Inside gapmatch quantities are
-SI: energies in J, current densities in A m^-2, power densities in W m^-2. The helpers
-below convert to the units users read (eV, nm, mA cm^-2, %).
+The constants are the exact defining constants of the SI (2019) and the Stefan-Boltzmann
+constant derived from them, written out so that importing gapmatch does not import
+scipy; ``tests/test_model.py`` checks every one equal to :mod:`scipy.constants`. Inside
+gapmatch quantities are SI: energies in J, current densities in A m^-2, power densities
+in W m^-2. The helpers below convert to the units users read (eV, nm, mA cm^-2, %).
+
+References
+----------
+.. [1] BIPM, The International System of Units (SI), 9th edition (2019), Table 1.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from scipy import constants as _c
 
 __all__ = [
     "Q",
@@ -18,6 +23,7 @@ __all__ = [
     "SIGMA",
     "HC_EV_NM",
     "EV",
+    "AU",
     "ev_to_j",
     "j_to_ev",
     "nm_to_ev",
@@ -25,20 +31,27 @@ __all__ = [
     "a_m2_to_ma_cm2",
     "ma_cm2_to_a_m2",
     "thermal_voltage",
+    "nm_to_m",
+    "mev_to_j",
+    "per_cm_to_per_m",
+    "ohm_cm2_to_ohm_m2",
+    "ohm_m2_to_ohm_cm2",
 ]
 
-#: elementary charge [C]
-Q: float = _c.e
-#: Planck constant [J s]
-H: float = _c.h
-#: speed of light in vacuum [m s^-1]
-C: float = _c.c
-#: Boltzmann constant [J K^-1]
-K_B: float = _c.k
-#: Stefan-Boltzmann constant [W m^-2 K^-4]
-SIGMA: float = _c.sigma
-#: one electronvolt [J]
-EV: float = _c.eV
+#: elementary charge [C] (exact)
+Q: float = 1.602176634e-19
+#: Planck constant [J s] (exact)
+H: float = 6.62607015e-34
+#: speed of light in vacuum [m s^-1] (exact)
+C: float = 299792458.0
+#: Boltzmann constant [J K^-1] (exact)
+K_B: float = 1.380649e-23
+#: Stefan-Boltzmann constant 2 pi^5 k^4 / (15 h^3 c^2) [W m^-2 K^-4], as scipy.constants
+SIGMA: float = 5.6703744191844314e-08
+#: one electronvolt [J] (exact)
+EV: float = Q
+#: astronomical unit [m] (exact, IAU 2012 Resolution B2)
+AU: float = 149597870700.0
 #: h c / q [nm eV], about 1239.84
 HC_EV_NM: float = H * C / Q * 1e9
 
@@ -76,3 +89,28 @@ def ma_cm2_to_a_m2(j):
 def thermal_voltage(temperature_k):
     """Thermal voltage k T / q [V] at cell temperature ``temperature_k`` [K]."""
     return K_B * np.asarray(temperature_k, dtype=float) / Q
+
+
+def nm_to_m(length_nm):
+    """Convert a length from nm to m (factor 1e-9)."""
+    return np.asarray(length_nm, dtype=float) * 1e-9
+
+
+def mev_to_j(e_mev):
+    """Convert energy from meV to J."""
+    return np.asarray(e_mev, dtype=float) * 1e-3 * EV
+
+
+def per_cm_to_per_m(alpha_per_cm):
+    """Convert an absorption coefficient from cm^-1 to m^-1 (factor 100)."""
+    return np.asarray(alpha_per_cm, dtype=float) * 100.0
+
+
+def ohm_cm2_to_ohm_m2(r_ohm_cm2):
+    """Convert an area-specific resistance from ohm cm^2 to ohm m^2 (factor 1e-4)."""
+    return np.asarray(r_ohm_cm2, dtype=float) * 1e-4
+
+
+def ohm_m2_to_ohm_cm2(r_ohm_m2):
+    """Convert an area-specific resistance from ohm m^2 to ohm cm^2 (factor 1e4)."""
+    return np.asarray(r_ohm_m2, dtype=float) * 1e4

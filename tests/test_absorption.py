@@ -241,8 +241,10 @@ def test_evaluate_validation(kwargs, match):
 def test_thickness_hook_validation():
     with pytest.raises(InputError, match="thickness_nm: needs one value or one per stack"):
         evaluate_thickness([[1.7, 1.1], [1.8, 1.1]], [100, 200, 300])
-    with pytest.raises(InputError, match="junction: must be a junction index"):
-        evaluate_thickness([1.7, 1.1], [100], junction=2)
+    with pytest.raises(InputError, match=r"junction: must be a junction number in \[1, 2\]"):
+        evaluate_thickness([1.7, 1.1], [100], junction=3)
+    with pytest.raises(InputError, match="junction: must be a junction number"):
+        evaluate_thickness([1.7, 1.1], [100], junction=0)
 
 
 def test_thinning_a_low_gap_top_cell_current_matches_a_series_stack():

@@ -123,7 +123,7 @@ def test_series_mpp_matches_bruteforce(n, am15g):
 @pytest.mark.parametrize("model", ["boltzmann", "bose-einstein"])
 def test_independent_mpp_matches_bruteforce(model, am15g):
     g = np.array([[2.0, 1.5, 0.9], [1.7, 1.1, 0.5]])
-    sol = solve_stacks(g * EV, am15g, "independent", dark_model=model)
+    sol = solve_stacks(g * EV, am15g, "independent", dark_current=model)
     d = make_diodes(model, sol.jph, g * EV, 300.0, 1.0)
     for k in range(2):
         for i in range(3):
@@ -282,7 +282,7 @@ def test_jv_curve_endpoints(model):
     r = gm.evaluate([1.8, 1.1], dark_current=model)
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # no invalid-value warnings from unused voltages
-        c = gm.jv_curve(r, 0, "AM1.5G", points=50, dark_current=model)
+        c = gm.jv_curve(r, 0, points=50)
     d = r.stack(0)
     for (v, j), junction in zip(c["junctions"], d["junctions"], strict=True):
         assert j[0] == pytest.approx(junction["jph_mA_cm2"], rel=1e-12)  # J(0) = J_ph

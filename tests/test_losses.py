@@ -45,7 +45,7 @@ def test_default_evaluate_bit_identical_to_hot_path(connection, kw):
         connection,
         temperature_K=kw.get("temperature_K", 300.0),
         ere=kw.get("ere", 1.0),
-        dark_model=kw.get("dark_current", "boltzmann"),
+        dark_current=kw.get("dark_current", "boltzmann"),
     )
     new = gm.evaluate(gaps, connection, **kw)
     new_l = gm.evaluate(gaps, connection, losses=True, **kw)
@@ -339,7 +339,7 @@ def test_loss_figures():
     np.testing.assert_allclose(np.sum([t.y for t in fig.data], axis=0), 100.0, rtol=1e-9)
     assert len(junction_loss_figure(res, 1).data) == len(res.losses.terms)
     th = np.array([100.0, 300.0, 1000.0])
-    f3 = thickness_figure([1.55, 1.12], th)
+    f3 = thickness_figure(gm.api.thickness_sweep([1.55, 1.12], th))
     np.testing.assert_allclose(
         f3.data[0].y, 100 * gm.api.evaluate_thickness([1.55, 1.12], th).efficiency
     )

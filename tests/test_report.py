@@ -38,6 +38,8 @@ def test_files_written(demo):
             f"{NAME}.html",
             f"{NAME}_map.csv",
             f"{NAME}_ridge.csv",
+            f"{NAME}_matched_current.csv",
+            f"{NAME}_thickness.csv",
             f"{NAME}_stacks.csv",
             f"{NAME}_cut.csv",
             f"{NAME}_summary.json",
@@ -62,6 +64,7 @@ def test_plotlyjs_embedded_once_and_size(demo):
 def test_every_section_and_figure(demo):
     _, page = demo
     st = load_study(DEMO)
+    assert st.sections
     for name in st.sections:
         assert f'id="sec-{name}"' in page
     figs = re.findall(r'<div class="gm-figure" id="(gm-fig-\d+)"', page)
@@ -207,12 +210,25 @@ bottom_gap_eV = 0.93
     assert s["others"] == "optimised" and len(s["connections"]["series"]["optimum"]["gaps_eV"]) == 3
 
 
+def test_thickness_section_writes_its_sweep(demo):
+    # the thickness CSV holds the numbers the figure draws: the efficiency of the demo's
+    # stack re-evaluated here at the same thicknesses (same engine: 1e-6 relative for
+    # the 6 significant digits the CSV keeps)
+    import pandas as pd
+
+    out, _ = demo
+    f = pd.read_csv(out / f"{NAME}_thickness.csv")
+    assert list(f.columns) == ["thickness_1_nm", "efficiency_pct", "jph_1_mA_cm2", "jph_2_mA_cm2"]
+    th = f["thickness_1_nm"].to_numpy()
+    res = gm.api.evaluate_thickness([1.68, 1.12], th, "series", junction=1)
+    np.testing.assert_allclose(f["efficiency_pct"], 100 * res.efficiency, rtol=1e-5)
+
+
 def test_matched_line_has_equal_photocurrents():
     from gapmatch.maps import compute_map
-    from gapmatch.report.figures import matched_line
 
     m = compute_map(["series"], x_range_eV=(1.4, 2.2), y_range_eV=(0.6, 1.6), step_eV=0.01)
-    x, y = matched_line(m)
+    x, y = m.matched_current_line()
     ok = np.isfinite(y)
     assert ok.sum() > 50
     res = gm.evaluate(np.column_stack([x[ok], y[ok]]), "series")

@@ -43,7 +43,11 @@ def test_demo_study_is_valid():
 def test_defaults_fill_in():
     st = parse_study(MINIMAL)
     assert st.conditions["spectrum"] == "AM1.5G" and st.conditions["temperature_K"] == 300.0
-    assert st.map["step_eV"] == 0.01 and "map" in st.sections and "assumptions" in st.sections
+    assert st.map["step_eV"] == 0.01 and st.sections == []  # the report's default sections
+    from gapmatch.report import check_section_names
+
+    names = check_section_names(st.sections)
+    assert "map" in names and "assumptions" in names
 
 
 def test_toml_syntax_error_gives_line_and_column():
@@ -90,8 +94,17 @@ def test_bad_choice_suggests():
 
 
 def test_unknown_section_suggests():
-    e = err(MINIMAL.replace('title = "Test"', 'title = "Test"\nsections = ["mapp"]'))
+    # the study checks section names as names only; the report checks them against its
+    # registry before it computes anything
+    st = parse_study(MINIMAL.replace('title = "Test"', 'title = "Test"\nsections = ["mapp"]'))
+    from gapmatch.report import build_report
+
+    with pytest.raises(InputError) as exc:
+        build_report(st, progress=False)
+    e = exc.value
     assert e.field == "study.sections[1]" and "did you mean 'map'?" in str(e)
+    e = err(MINIMAL.replace('title = "Test"', 'title = "Test"\nsections = ["Map!"]'))
+    assert e.field == "study.sections[1]" and "report section name" in str(e)
 
 
 def test_missing_required_key():

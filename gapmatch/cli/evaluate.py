@@ -7,8 +7,9 @@ import json
 
 from ..api import evaluate
 from ..core.absorption import ABSORBER_MODELS, LIGHT_TRAPPING
-from ..core.connections import CONNECTIONS
+from ..core.registry import CONNECTIONS
 from ..results import LOSS_LABELS
+from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
 
 DEMO_STACKS = {
@@ -20,7 +21,7 @@ DEMO_STACKS = {
 def register(sub) -> None:
     p = sub.add_parser(
         "evaluate",
-        help="efficiency of one stack (detailed-balance limit)",
+        help=COMMANDS["evaluate"],
         description="Detailed-balance efficiency, maximum power point and per-junction "
         "operating point of one stack of junctions. Theoretical limits, not ratings.",
     )

@@ -7,15 +7,16 @@ import json
 import sys
 from pathlib import Path
 
-from ..core.connections import CONNECTIONS
+from ..core.registry import CONNECTIONS
 from ..maps import OTHERS_MODES, compute_map
+from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
 
 
 def register(sub) -> None:
     p = sub.add_parser(
         "map",
-        help="efficiency map over a grid of two junctions' gaps",
+        help=COMMANDS["map"],
         description="Detailed-balance efficiency over a grid of top x bottom gaps (or any "
         "two junctions of a longer stack) for several connections at once. Writes the grid "
         "as a CSV (one row per point) and a JSON summary (optimum and tolerance window per "

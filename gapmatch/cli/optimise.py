@@ -6,18 +6,19 @@ import argparse
 import json
 import sys
 
-from ..core.connections import CONNECTIONS
+from ..core.registry import CONNECTIONS
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise
 from ..search.runner import DEFAULT_STORAGE, shell_join
+from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
 
 
 def register(sub) -> None:
     p = sub.add_parser(
         "optimise",
-        help="search the best band gaps of a 2-6 junction stack (detailed-balance limit)",
+        help=COMMANDS["optimise"],
         description="Global search for the band gaps that maximise the detailed-balance "
         "efficiency of a stack under gap windows, fixed gaps, a minimum spacing and an "
         "optional photocurrent-mismatch limit; reports the best stack and distinct "

@@ -9,12 +9,13 @@ import sys
 from ..errors import InputError
 from ..report import build_report, write_report
 from ..study import load_study
+from .commands import COMMANDS
 
 
 def register(sub) -> None:
     p = sub.add_parser(
         "report",
-        help="run a TOML study file and write an HTML report with its data files",
+        help=COMMANDS["report"],
         description="Validate a study file, compute every section it lists and write "
         "<out-dir>/<study-name>.html (self-contained, works offline) with CSV and JSON "
         "data files beside it. Nothing is written if the study is invalid.",

@@ -26,18 +26,16 @@ from typing import Any
 import numpy as np
 
 from ..units import K_B, Q
-from .connections import (
-    OperatingPoint,
-    best_ratio_voltage_matched,
-    solve_independent,
-    solve_series,
-    solve_voltage_matched,
-)
+from .connections import OperatingPoint
 from .diodes import make_diodes
-from .spectra import Spectrum
+from .registry import connection_model
+from .spectra import Spectrum, SpectrumSeries
+from .steps import step_shares
 
 __all__ = [
+    "step_shares",
     "step_photocurrents",
+    "solve_stacks_series",
     "StackSolution",
     "solve_stacks",
     "DeviceModel",
@@ -45,7 +43,7 @@ __all__ = [
 ]
 
 
-def step_photocurrents(gaps_J: np.ndarray, spectrum: Spectrum) -> np.ndarray:  # noqa: N803
+def step_photocurrents(gaps_J: np.ndarray, spectrum: Spectrum) -> np.ndarray:
     """Photocurrent density of every junction with step absorptance [A m^-2].
 
     Parameters
@@ -61,10 +59,7 @@ def step_photocurrents(gaps_J: np.ndarray, spectrum: Spectrum) -> np.ndarray:  #
         ``q * Phi_i`` [A m^-2], shape ``(M, N)``; their sum over a stack equals ``q`` times
         the photon flux above the stack's smallest gap.
     """
-    f = spectrum.photon_flux_above(gaps_J)
-    acc = np.maximum.accumulate(f, axis=1)
-    prev = np.concatenate([np.zeros((f.shape[0], 1)), acc[:, :-1]], axis=1)
-    return Q * (acc - prev)
+    return Q * step_shares(spectrum.photon_flux_above(gaps_J))[0]
 
 
 @dataclass
@@ -103,18 +98,19 @@ class StackSolution:
 
 
 def solve_stacks(
-    gaps_J: np.ndarray,  # noqa: N803
+    gaps_J: np.ndarray,
     spectrum: Spectrum,
     connection: str = "series",
     *,
-    temperature_K: np.ndarray | float = 300.0,  # noqa: N803
+    temperature_K: np.ndarray | float = 300.0,
     ere: np.ndarray | float = 1.0,
-    dark_model: str = "boltzmann",
+    dark_current: str = "boltzmann",
     emission_factor: np.ndarray | float = 1.0,
     vm_ratio: np.ndarray | None = None,
     vm_max_cells: int | None = None,
     threads: int | None = None,
     chunk: int = 32768,
+    dark_model: str | None = None,
 ) -> StackSolution:
     """Evaluate a batch of stacks at their exact maximum power points.
 
@@ -131,7 +127,7 @@ def solve_stacks(
         Cell temperature [K], broadcast to ``(M, N)``.
     ere : float or numpy.ndarray
         External radiative efficiency in (0, 1], broadcast to ``(M, N)``.
-    dark_model : {"boltzmann", "bose-einstein"}
+    dark_current : {"boltzmann", "bose-einstein"}
         Form of the radiative dark current.
     emission_factor : float or numpy.ndarray
         Multiplier on hemispherical front emission (dimensionless).
@@ -146,16 +142,20 @@ def solve_stacks(
         the number of CPUs. Results do not depend on it.
     chunk : int
         Stacks per work unit.
+    dark_model : str, optional
+        Former name of ``dark_current`` (accepted while callers move over).
 
     Returns
     -------
     StackSolution
     """
+    if dark_model is not None:
+        dark_current = dark_model
     gaps = np.atleast_2d(np.asarray(gaps_J, dtype=float))
     kw = dict(
         temperature_K=temperature_K,
         ere=ere,
-        dark_model=dark_model,
+        dark_current=dark_current,
         emission_factor=emission_factor,
         vm_ratio=vm_ratio,
         vm_max_cells=vm_max_cells,
@@ -175,6 +175,67 @@ def solve_stacks(
     with ThreadPoolExecutor(max_workers=threads) as pool:
         parts = list(pool.map(part, range(len(bounds) - 1)))
     return _concat(parts)
+
+
+def solve_stacks_series(
+    gaps_J: np.ndarray,
+    series: SpectrumSeries,
+    connection: str = "series",
+    *,
+    temperature_K: np.ndarray | float = 300.0,
+    ere: np.ndarray | float = 1.0,
+    dark_current: str = "boltzmann",
+    vm_ratio: np.ndarray | None = None,
+    vm_max_cells: int | None = None,
+) -> StackSolution:
+    """Solve ``M`` stacks under each of ``H`` spectra in one vectorised call.
+
+    Parameters
+    ----------
+    gaps_J : numpy.ndarray
+        Band gaps [J], ``(M, N)``, top junction first (assumed valid).
+    series : SpectrumSeries
+        ``H`` spectra on one wavelength grid.
+    connection : {"series", "independent", "voltage-matched"}
+        How the junctions are connected.
+    temperature_K : float or numpy.ndarray
+        Cell temperature [K]: one value, one per spectrum ``(H,)``, or one per spectrum
+        and junction ``(H, N)``.
+    ere : float or numpy.ndarray
+        External radiative efficiency, one value or one per junction ``(N,)``.
+    dark_current : {"boltzmann", "bose-einstein"}
+        Form of the radiative dark current.
+    vm_ratio, vm_max_cells
+        As in :func:`solve_stacks`.
+
+    Returns
+    -------
+    StackSolution
+        ``H * M`` rows, spectrum-major (row ``h * M + i`` is stack ``i`` under spectrum
+        ``h``); ``incident_W_m2`` is an ``(H * M,)`` array.
+
+    References
+    ----------
+    .. [1] W. Shockley and H. J. Queisser, J. Appl. Phys. 32, 510 (1961).
+    """
+    gaps = np.atleast_2d(np.asarray(gaps_J, dtype=float))
+    m, n = gaps.shape
+    h = len(series)
+    jph = Q * step_shares(series.photon_flux_above(gaps))[0]  # (H, M, N)
+    t = np.asarray(temperature_K, dtype=float)
+    if t.ndim == 1:  # one per spectrum
+        t = t[:, None, None]
+    elif t.ndim == 2:
+        t = t[:, None, :]
+    full = (h, m, n)
+    g = np.broadcast_to(gaps, full).reshape(h * m, n)
+    tt = np.broadcast_to(t, full).reshape(h * m, n)
+    diodes = make_diodes(dark_current, jph.reshape(h * m, n), g, tt, ere, 1.0)
+    ratio = vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1 else np.tile(vm_ratio, (h, 1))
+    op = connection_model(connection).solve(diodes, ratio, vm_max_cells)
+    absorbed = series.power_above(gaps.min(axis=1)).reshape(h * m)
+    incident = np.repeat(series.total_irradiance_W_m2, m)
+    return StackSolution(g, jph.reshape(h * m, n), diodes.voc(), op, incident, absorbed)
 
 
 def _rows(value, shape, sl):
@@ -215,25 +276,16 @@ def _solve(
     *,
     temperature_K,
     ere,
-    dark_model,  # noqa: N803
+    dark_current,
     emission_factor,
     vm_ratio,
     vm_max_cells,
 ) -> StackSolution:
+    model = connection_model(connection)
     gaps = np.asfortranarray(gaps)
     jph = step_photocurrents(gaps, spectrum)
-    diodes = make_diodes(dark_model, jph, gaps, temperature_K, ere, emission_factor)
-    if connection == "series":
-        op = solve_series(diodes)
-    elif connection == "independent":
-        op = solve_independent(diodes)
-    elif connection == "voltage-matched":
-        if vm_ratio is not None:
-            op = solve_voltage_matched(diodes, np.asarray(vm_ratio))
-        else:
-            op = best_ratio_voltage_matched(diodes, vm_max_cells)
-    else:
-        raise ValueError(f"unknown connection {connection!r}")
+    diodes = make_diodes(dark_current, jph, gaps, temperature_K, ere, emission_factor)
+    op = model.solve(diodes, vm_ratio, vm_max_cells)
     e_min = gaps.min(axis=1)
     absorbed = spectrum.power_above(e_min)
     return StackSolution(gaps, jph, diodes.voc(), op, spectrum.total_irradiance_W_m2, absorbed)
@@ -269,7 +321,7 @@ class DeviceModel:
     collection : float or numpy.ndarray
         Collection efficiency per junction, (0, 1]; by reciprocity it also scales the
         radiative saturation current (Rau 2007).
-    series_r : float or numpy.ndarray
+    series_resistance_ohm_m2 : float or numpy.ndarray
         Series resistance [ohm m^2]: one value for a series stack, or per junction for
         independent connection.
     gap_temperature : GapTemperature, optional
@@ -283,7 +335,7 @@ class DeviceModel:
     coupling_fraction: Any = None
     emission_factor: Any = 1.0
     collection: Any = 1.0
-    series_r: Any = 0.0
+    series_resistance_ohm_m2: Any = 0.0
     gap_temperature: Any = None
 
     def all_step(self) -> bool:
@@ -292,20 +344,21 @@ class DeviceModel:
 
 
 def solve_stacks_nonideal(
-    gaps_J: np.ndarray,  # noqa: N803
+    gaps_J: np.ndarray,
     spectrum: Spectrum,
     connection: str = "series",
     device: DeviceModel | None = None,
     *,
-    temperature_K: np.ndarray | float = 300.0,  # noqa: N803
+    temperature_K: np.ndarray | float = 300.0,
     ere: np.ndarray | float = 1.0,
-    dark_model: str = "boltzmann",
+    dark_current: str = "boltzmann",
     vm_ratio: np.ndarray | None = None,
     vm_max_cells: int = 6,
     losses: bool = False,
     chunk: int | None = None,
     threads: int | None = None,
     given: StackSolution | None = None,
+    dark_model: str | None = None,
 ) -> StackSolution:
     """Evaluate stacks with finite absorbers, coupling, temperature and practical losses.
 
@@ -323,7 +376,7 @@ def solve_stacks_nonideal(
     temperature_K, ere : float or numpy.ndarray
         Cell temperature [K] and radiative efficiency (fraction of recombination that is
         radiative, all emission channels), broadcast to ``(M, N)``.
-    dark_model : {"boltzmann", "bose-einstein"}
+    dark_current : {"boltzmann", "bose-einstein"}
         Bose-Einstein only with step absorbers and no luminescent coupling.
     vm_ratio, vm_max_cells
         As in :func:`solve_stacks`.
@@ -336,6 +389,8 @@ def solve_stacks_nonideal(
     given : StackSolution, optional
         Ideal device only: the :func:`solve_stacks` solution of the same batch; its
         operating point is used as is and only the loss breakdown is computed.
+    dark_model : str, optional
+        Former name of ``dark_current``.
 
     Returns
     -------
@@ -349,6 +404,8 @@ def solve_stacks_nonideal(
     .. [2] T. Tiedje et al., IEEE Trans. Electron Devices 31, 711 (1984).
     .. [3] L. C. Hirst and N. J. Ekins-Daukes, Prog. Photovolt. 19, 286 (2011).
     """
+    if dark_model is not None:
+        dark_current = dark_model
     device = device or DeviceModel()
     g = np.atleast_2d(np.asarray(gaps_J, dtype=float))
     m, n = g.shape
@@ -370,7 +427,7 @@ def solve_stacks_nonideal(
             connection,
             device,
             {k: v[sl] for k, v in full.items()},
-            dark_model,
+            dark_current,
             vm_ratio if vm_ratio is None or np.ndim(vm_ratio) == 1 else np.asarray(vm_ratio)[sl],
             vm_max_cells,
             losses,
@@ -411,50 +468,60 @@ def _per_junction_array(value, shape, pad=0.0):
     return np.broadcast_to(a, shape)
 
 
-def _solve_nonideal(
-    g_ref,
-    spectrum,
-    connection,
-    device,
-    arrs,
-    dark_model,
-    vm_ratio,
-    vm_max_cells,
-    want_losses,
-    given=None,
-) -> StackSolution:
-    from .absorption import stack_optics, step_optics
-    from .connections import solve_independent_resistive, solve_series_resistive
-    from .coupling import (
-        coupling_coefficients,
-        downward_fraction,
-        series_chain,
-        solve_independent_coupled,
-    )
-    from .diodes import BoltzmannDiodes, BoseEinsteinDiodes, ln_j0_radiative
+@dataclass
+class _Junctions:
+    """The diode model of every junction of a batch (internal, SI)."""
 
-    shape = g_ref.shape
-    m, n = shape
-    t = np.ascontiguousarray(arrs["temperature_K"])
-    ere = np.ascontiguousarray(arrs["ere"])
+    gaps: np.ndarray  # gaps at the cell temperature [J]
+    t: np.ndarray  # cell temperature [K]
+    ere: np.ndarray
+    optics: Any  # absorption.Optics
+    eta: np.ndarray  # collection efficiency
+    front: np.ndarray  # front emission factor
+    nidx: np.ndarray  # refractive index
+    rear_on: np.ndarray  # 1 where a junction emits downwards into a junction below
+    c: np.ndarray  # coupling fraction per interface (0 at the bottom)
+    n2r: np.ndarray  # rear emission factor n^2 (where rear_on)
+    jph: np.ndarray  # photocurrent from the incident light [A m^-2]
+    vt: np.ndarray  # thermal voltage [V]
+    j0: np.ndarray  # dark saturation current [A m^-2]
+    k: np.ndarray  # coupling coefficients
+    diodes: Any
+    bose: bool
+    coupled: bool
+
+
+def _optics(g_ref, spectrum, device, t, thickness):
+    """Gaps at the cell temperature [J] and the stack's optics."""
+    from .absorption import stack_optics, step_optics
+
+    n = g_ref.shape[1]
     gt = device.gap_temperature
     g = gt.gaps_at(g_ref, t) if gt is not None else g_ref.copy()
     if device.all_step():
-        optics = step_optics(g, spectrum)
-    else:
-        absorbers = tuple(device.absorbers) + (None,) * (n - len(device.absorbers))
-        trapping = tuple(device.trapping) or ("single",) * n
-        optics = stack_optics(
-            g,
-            t,
-            spectrum,
-            absorbers,
-            arrs["thickness"],
-            trapping,
-            _per_junction_array(device.refractive_index, (n,)),
-        )
+        return g, step_optics(g, spectrum)
+    absorbers = tuple(device.absorbers) + (None,) * (n - len(device.absorbers))
+    trapping = tuple(device.trapping) or ("single",) * n
+    optics = stack_optics(
+        g,
+        t,
+        spectrum,
+        absorbers,
+        thickness,
+        trapping,
+        _per_junction_array(device.refractive_index, (n,)),
+    )
+    return g, optics
+
+
+def _junction_diodes(g, t, ere, optics, device, dark_current) -> _Junctions:
+    """Photocurrents, saturation currents and coupling of every junction."""
+    from .coupling import coupling_coefficients, downward_fraction
+    from .diodes import BoltzmannDiodes, BoseEinsteinDiodes, ln_j0_radiative
+
+    shape = g.shape
     eta = _per_junction_array(device.collection, shape)
-    ff = _per_junction_array(device.emission_factor, shape)
+    front = _per_junction_array(device.emission_factor, shape)
     nidx = _per_junction_array(device.refractive_index, shape)
     coupled = device.coupling_fraction is not None
     rear_on = np.zeros(shape)
@@ -470,61 +537,140 @@ def _solve_nonideal(
     else:
         j0_unit = optics.j0_unit
     j0_unit = eta * j0_unit  # reciprocity: emission follows the EQE
-    j0 = (ff + n2r) * j0_unit / ere
-    bose = dark_model == "bose-einstein"
+    j0 = (front + n2r) * j0_unit / ere
+    bose = dark_current == "bose-einstein"
     if bose and (coupled or not device.all_step()):
         raise ValueError(
             "the Bose-Einstein dark current needs step absorbers and no luminescent coupling"
         )
     if bose:
-        diodes = BoseEinsteinDiodes(jph, g, t, ere, eta * ff)
+        diodes = BoseEinsteinDiodes(jph, g, t, ere, eta * front)
     else:
         diodes = BoltzmannDiodes(jph, j0, vt)
-    k = coupling_coefficients(downward_fraction(ere, ff, nidx, rear_on), c, eta)
-    r = np.asarray(device.series_r, dtype=float)
-    jeff_act = jph
+    k = coupling_coefficients(downward_fraction(ere, front, nidx, rear_on), c, eta)
+    return _Junctions(
+        g, t, ere, optics, eta, front, nidx, rear_on, c, n2r, jph, vt, j0, k, diodes, bose, coupled
+    )
+
+
+def _operating_point(jn: _Junctions, connection, device, vm_ratio, vm_max_cells, given):
+    """Maximum power point of every stack, with coupling and series resistance.
+
+    Returns ``(op, voc_junction, jph_total, r_junction, r_stack)``.
+    """
+    from .coupling import series_chain, solve_independent_coupled
+
+    model = connection_model(connection)
+    shape = jn.gaps.shape
+    m = shape[0]
+    r = np.asarray(device.series_resistance_ohm_m2, dtype=float)
+    jeff_act = jn.jph
     r_junction = np.zeros(shape)
     r_stack = np.zeros(m)
     if given is not None:
-        op, voc_j = given.op, given.voc_junction
-    elif connection == "series":
+        return given.op, given.voc_junction, jeff_act, r_junction, r_stack
+    if (jn.coupled and not model.coupling) or (np.any(r > 0) and model.solve_resistive is None):
+        raise ValueError(
+            "luminescent coupling and series resistance need series or independent connection"
+        )
+    if model.terminals == "stack":
         r_stack = np.broadcast_to(r if r.ndim == 0 else r.reshape(-1)[0], (m,))
-        dd = diodes
-        if coupled:
-            dd, a, b = series_chain(jph, j0, vt, k)
-        op = solve_series_resistive(dd, r_stack) if np.any(r_stack > 0) else solve_series(dd)
+        dd = jn.diodes
+        if jn.coupled:
+            dd, a, b = series_chain(jn.jph, jn.j0, jn.vt, jn.k)
+        op = model.solve_resistive(dd, r_stack) if np.any(r_stack > 0) else model.solve(dd)
         voc_j = dd.voc()
-        if coupled:
+        if jn.coupled:
             jeff_act = a - (b - 1.0) * op.j_mpp[:, None]
-    elif connection == "independent":
+    elif model.terminals == "junction":
         r_junction = np.ascontiguousarray(_per_junction_array(r, shape))
-        if coupled:
-            j, v, jeff_act = solve_independent_coupled(jph, j0, vt, k, r_junction)
+        if jn.coupled:
+            j, v, jeff_act = solve_independent_coupled(jn.jph, jn.j0, jn.vt, jn.k, r_junction)
             p = (j * (v - r_junction * j)).sum(axis=1)
             nan = np.full(m, np.nan)
             op = OperatingPoint(p, nan, nan, nan, nan, v, j)
-            voc_j = vt * np.log1p(jeff_act / j0)
+            voc_j = jn.vt * np.log1p(jeff_act / jn.j0)
         elif np.any(r_junction > 0):
-            op = solve_independent_resistive(diodes, r_junction)
-            voc_j = diodes.voc()
+            op = model.solve_resistive(jn.diodes, r_junction)
+            voc_j = jn.diodes.voc()
         else:
-            op = solve_independent(diodes)
-            voc_j = diodes.voc()
-    elif connection == "voltage-matched":
-        if coupled or np.any(r > 0):
-            raise ValueError(
-                "luminescent coupling and series resistance need series or independent connection"
-            )
-        if vm_ratio is not None:
-            op = solve_voltage_matched(diodes, np.asarray(vm_ratio))
-        else:
-            op = best_ratio_voltage_matched(diodes, vm_max_cells)
-        voc_j = diodes.voc()
+            op = model.solve(jn.diodes)
+            voc_j = jn.diodes.voc()
     else:
-        raise ValueError(f"unknown connection {connection!r}")
+        op = model.solve(jn.diodes, vm_ratio, vm_max_cells)
+        voc_j = jn.diodes.voc()
+    return op, voc_j, jeff_act, r_junction, r_stack
+
+
+def _losses(jn: _Junctions, spectrum, connection, op, r_junction, r_stack):
+    """Loss breakdown at the operating point ``op`` (Hirst and Ekins-Daukes 2011)."""
+    from .coupling import solve_independent_coupled
+    from .diodes import BoseEinsteinDiodes
+    from .losses import compute_losses
+
+    if jn.coupled:
+        rj, rv, rjeff = solve_independent_coupled(jn.jph, jn.j0, jn.vt, jn.k, 0.0)
+    elif connection_model(connection).terminals == "junction" and not np.any(r_junction > 0):
+        rj, rv, rjeff = op.j_junction, op.v_junction, jn.jph
+    else:
+        rv, rj = jn.diodes.mpp()
+        rjeff = jn.jph
+    if jn.bose:
+        rvoc = BoseEinsteinDiodes(rjeff, jn.gaps, jn.t, jn.ere, jn.eta * jn.front).voc()
+        rvoc_rad = BoseEinsteinDiodes(rjeff, jn.gaps, jn.t, 1.0, jn.eta * jn.front).voc()
+    else:
+        rvoc = jn.vt * np.log1p(rjeff / jn.j0)
+        rvoc_rad = jn.vt * np.log1p(rjeff / (jn.j0 * jn.ere))
+    bb = spectrum.is_blackbody
+    return compute_losses(
+        gaps_J=jn.gaps,
+        temperature_K=jn.t,
+        incident_W_m2=spectrum.total_irradiance_W_m2,
+        optics=jn.optics,
+        ere=jn.ere,
+        collection=jn.eta,
+        front_factor=jn.front,
+        n2r=jn.n2r,
+        coupling_fraction=jn.c,
+        ref_j=rj,
+        ref_v=rv,
+        ref_jeff=rjeff,
+        ref_voc=rvoc,
+        ref_voc_rad=rvoc_rad,
+        act_j=op.j_junction,
+        act_v=op.v_junction,
+        junction_r=r_junction,
+        p_out=op.p_mpp,
+        stack_r=r_stack,
+        stack_j=op.j_mpp,
+        sun_K=getattr(spectrum, "sun_temperature_K", None) if bb else None,
+        sun_dilution=getattr(spectrum, "dilution", None) if bb else None,
+    )
+
+
+def _solve_nonideal(
+    g_ref,
+    spectrum,
+    connection,
+    device,
+    arrs,
+    dark_current,
+    vm_ratio,
+    vm_max_cells,
+    want_losses,
+    given=None,
+) -> StackSolution:
+    """optics -> diodes -> operating point -> losses, for one work unit."""
+    t = np.ascontiguousarray(arrs["temperature_K"])
+    ere = np.ascontiguousarray(arrs["ere"])
+    g, optics = _optics(g_ref, spectrum, device, t, arrs["thickness"])
+    jn = _junction_diodes(g, t, ere, optics, device, dark_current)
+    op, voc_j, jeff_act, r_junction, r_stack = _operating_point(
+        jn, connection, device, vm_ratio, vm_max_cells, given
+    )
     sol = StackSolution(
         g,
-        jph,
+        jn.jph,
         voc_j,
         op,
         spectrum.total_irradiance_W_m2,
@@ -532,44 +678,5 @@ def _solve_nonideal(
         extras={"gaps_ref_J": g_ref, "jph_total": np.array(jeff_act, float)},
     )
     if want_losses:
-        from .losses import compute_losses
-
-        if coupled:
-            rj, rv, rjeff = solve_independent_coupled(jph, j0, vt, k, 0.0)
-        elif connection == "independent" and not np.any(r_junction > 0):
-            rj, rv, rjeff = op.j_junction, op.v_junction, jph
-        else:
-            rv, rj = diodes.mpp()
-            rjeff = jph
-        if bose:
-            rvoc = BoseEinsteinDiodes(rjeff, g, t, ere, eta * ff).voc()
-            rvoc_rad = BoseEinsteinDiodes(rjeff, g, t, 1.0, eta * ff).voc()
-        else:
-            rvoc = vt * np.log1p(rjeff / j0)
-            rvoc_rad = vt * np.log1p(rjeff / (j0 * ere))
-        bb = spectrum.is_blackbody
-        sol.losses = compute_losses(
-            gaps_J=g,
-            temperature_K=t,
-            incident_W_m2=spectrum.total_irradiance_W_m2,
-            optics=optics,
-            ere=ere,
-            collection=eta,
-            front_factor=ff,
-            n2r=n2r,
-            coupling_fraction=c,
-            ref_j=rj,
-            ref_v=rv,
-            ref_jeff=rjeff,
-            ref_voc=rvoc,
-            ref_voc_rad=rvoc_rad,
-            act_j=op.j_junction,
-            act_v=op.v_junction,
-            junction_r=r_junction,
-            p_out=op.p_mpp,
-            stack_r=r_stack,
-            stack_j=op.j_mpp,
-            sun_K=getattr(spectrum, "sun_temperature_K", None) if bb else None,
-            sun_dilution=getattr(spectrum, "dilution", None) if bb else None,
-        )
+        sol.losses = _losses(jn, spectrum, connection, op, r_junction, r_stack)
     return sol

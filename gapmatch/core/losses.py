@@ -94,13 +94,13 @@ TERMS = (
 _STACK_ONLY = ("below_gap", "incomplete_absorption")
 
 
-def carnot_per_carrier(gap_J, cell_K, sun_K):  # noqa: N803
+def carnot_per_carrier(gap_J, cell_K, sun_K):
     """Carnot loss per extracted carrier ``E_g T_cell / T_sun`` [J] (Hirst & Ekins-Daukes
     2011)."""
     return np.asarray(gap_J, float) * np.asarray(cell_K, float) / np.asarray(sun_K, float)
 
 
-def boltzmann_per_carrier(cell_K, omega_ratio):  # noqa: N803
+def boltzmann_per_carrier(cell_K, omega_ratio):
     """Boltzmann loss per extracted carrier ``kT_cell ln(Omega_emit / Omega_sun)`` [J]
     (Hirst & Ekins-Daukes 2011)."""
     return K_B * np.asarray(cell_K, float) * np.log(np.asarray(omega_ratio, float))
@@ -164,9 +164,9 @@ class LossBreakdown:
 
 def compute_losses(
     *,
-    gaps_J,  # noqa: N803
-    temperature_K,  # noqa: N803
-    incident_W_m2: float,  # noqa: N803
+    gaps_J,
+    temperature_K,
+    incident_W_m2: float,
     optics,
     ere,
     collection,
@@ -182,7 +182,7 @@ def compute_losses(
     act_v,
     junction_r,
     p_out,
-    sun_K=None,  # noqa: N803
+    sun_K=None,
     sun_dilution=None,
     stack_r=0.0,
     stack_j=0.0,
@@ -231,12 +231,12 @@ def compute_losses(
     """
     g = np.asarray(gaps_J, float)
     t = np.broadcast_to(np.asarray(temperature_K, float), g.shape)
-    ere, eta, ff, n2r, c = (
+    ere, eta, front, n2r, c = (
         np.broadcast_to(np.asarray(x, float), g.shape)
         for x in (ere, collection, front_factor, n2r, coupling_fraction)
     )
     d = ref_jeff - ref_j
-    beta = ere * n2r / (ff + n2r)
+    beta = ere * n2r / (front + n2r)
     sent = c * beta * d  # coupled luminescence sent down [A m^-2]
     l_in = np.zeros_like(g)
     l_in[:, 1:] = sent[:, :-1]
@@ -246,13 +246,13 @@ def compute_losses(
     jt = {}
     jt["thermalisation"] = optics.p_abs - g * optics.phi_abs + (g_above - g) * l_in / Q
     jt["incomplete_collection"] = g * (1.0 - eta) * (optics.phi_abs + l_in / Q)
-    jt["emission"] = eg_q * d * ere * (ff + n2r * (1.0 - c)) / (ff + n2r)
+    jt["emission"] = eg_q * d * ere * (front + n2r * (1.0 - c)) / (front + n2r)
     jt["nonradiative"] = eg_q * d * (1.0 - ere)
     rad_deficit = (eg_q - ref_voc_rad) * ref_j
     blackbody = sun_K is not None
     if blackbody:
         jt["carnot"] = carnot_per_carrier(g, t, sun_K) / Q * ref_j
-        jt["boltzmann"] = boltzmann_per_carrier(t, (ff + n2r) / sun_dilution) / Q * ref_j
+        jt["boltzmann"] = boltzmann_per_carrier(t, (front + n2r) / sun_dilution) / Q * ref_j
         jt["voltage_radiative"] = rad_deficit - jt["carnot"] - jt["boltzmann"]
     else:
         jt["voltage_radiative"] = rad_deficit

@@ -35,10 +35,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import constants as _sc
 
 from ..errors import InputError, check_range
-from ..units import K_B, SIGMA, C, H
+from ..units import AU, K_B, SIGMA, C, H
 from .planck import PLANCK_PREFACTOR, bose_tail
 
 __all__ = [
@@ -49,12 +48,13 @@ __all__ = [
     "Spectrum",
     "TabulatedSpectrum",
     "BlackbodySun",
+    "SpectrumSeries",
 ]
 
 #: IAU 2015 nominal solar radius [m]
 SOLAR_RADIUS_M: float = 6.957e8
 #: angular radius of the solar disc seen from 1 au [rad] (about 0.2665 deg)
-SUN_HALF_ANGLE_RAD: float = math.asin(SOLAR_RADIUS_M / _sc.au)
+SUN_HALF_ANGLE_RAD: float = math.asin(SOLAR_RADIUS_M / AU)
 #: dilution factor sin^2(theta_sun), about 2.16e-5
 SUN_DILUTION: float = math.sin(SUN_HALF_ANGLE_RAD) ** 2
 #: thermodynamic maximum concentration 1 / sin^2(theta_sun), about 46,200
@@ -77,24 +77,24 @@ class Spectrum:
 
     # -- required by the engine ------------------------------------------------------
     @property
-    def total_irradiance_W_m2(self) -> float:  # noqa: N802 - unit suffix
+    def total_irradiance_W_m2(self) -> float:
         """Integral of the spectral irradiance [W m^-2]."""
         raise NotImplementedError
 
     @property
-    def max_photon_energy_J(self) -> float:  # noqa: N802
+    def max_photon_energy_J(self) -> float:
         """Largest photon energy present [J] (``inf`` for a blackbody)."""
         raise NotImplementedError
 
-    def photon_flux_above(self, energy_J: np.ndarray) -> np.ndarray:  # noqa: N803
+    def photon_flux_above(self, energy_J: np.ndarray) -> np.ndarray:
         """Photon flux with photon energy above ``energy_J`` [m^-2 s^-1]."""
         raise NotImplementedError
 
-    def power_above(self, energy_J: np.ndarray) -> np.ndarray:  # noqa: N803
+    def power_above(self, energy_J: np.ndarray) -> np.ndarray:
         """Power density of photons above ``energy_J`` [W m^-2]."""
         raise NotImplementedError
 
-    def spectral_photon_flux(self, energy_J: np.ndarray) -> np.ndarray:  # noqa: N803
+    def spectral_photon_flux(self, energy_J: np.ndarray) -> np.ndarray:
         """Photon flux per unit photon energy [m^-2 s^-1 J^-1] at ``energy_J`` [J]."""
         raise NotImplementedError
 
@@ -140,7 +140,7 @@ class Spectrum:
         )
 
 
-def _check_scaling(irradiance_W_m2: float | None, concentration: float) -> None:  # noqa: N803
+def _check_scaling(irradiance_W_m2: float | None, concentration: float) -> None:
     if irradiance_W_m2 is not None:
         check_range(
             "irradiance_W_m2", irradiance_W_m2, 0.0, 1e5, low_inclusive=False, unit="W m^-2"
@@ -253,14 +253,14 @@ class TabulatedSpectrum(Spectrum):
 
     # engine interface
     @property
-    def total_irradiance_W_m2(self) -> float:  # noqa: N802
+    def total_irradiance_W_m2(self) -> float:
         return float(self._cum_power[-1])
 
     @property
-    def max_photon_energy_J(self) -> float:  # noqa: N802
+    def max_photon_energy_J(self) -> float:
         return H * C / (self.wavelength_nm[0] * 1e-9)
 
-    def _cumulative(self, values: np.ndarray, cum: np.ndarray, energy_J) -> np.ndarray:  # noqa: N803
+    def _cumulative(self, values: np.ndarray, cum: np.ndarray, energy_J) -> np.ndarray:
         """Exact integral from the shortest wavelength up to hc/E of the piecewise-linear
         interpolant of ``values``."""
         e = np.asarray(energy_J, dtype=float)
@@ -280,13 +280,13 @@ class TabulatedSpectrum(Spectrum):
         slope = (values[k + 1] - values[k]) / (wl[k + 1] - wl[k])
         return cum[k] + x * (values[k] + 0.5 * x * slope)
 
-    def photon_flux_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def photon_flux_above(self, energy_J) -> np.ndarray:
         return self._cumulative(self._phi, self._cum_photons, energy_J)
 
-    def power_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def power_above(self, energy_J) -> np.ndarray:
         return self._cumulative(self.irradiance_W_m2_nm, self._cum_power, energy_J)
 
-    def spectral_photon_flux(self, energy_J) -> np.ndarray:  # noqa: N803
+    def spectral_photon_flux(self, energy_J) -> np.ndarray:
         e = np.asarray(energy_J, dtype=float)
         lam = H * C / np.maximum(e, 1e-300) * 1e9
         per_nm = np.interp(lam, self.wavelength_nm, self._phi, left=0.0, right=0.0)
@@ -375,24 +375,24 @@ class BlackbodySun(Spectrum):
         return self.dilution * self.scale * PLANCK_PREFACTOR
 
     @property
-    def total_irradiance_W_m2(self) -> float:  # noqa: N802
+    def total_irradiance_W_m2(self) -> float:
         return self.dilution * self.scale * SIGMA * self.sun_temperature_K**4
 
     @property
-    def max_photon_energy_J(self) -> float:  # noqa: N802
+    def max_photon_energy_J(self) -> float:
         return math.inf
 
-    def photon_flux_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def photon_flux_above(self, energy_J) -> np.ndarray:
         x = np.maximum(np.asarray(energy_J, dtype=float), 0.0) / self._kt
         xs = np.maximum(x, 1e-12)
         return self._factor * self._kt**3 * bose_tail(2, xs, xs)
 
-    def power_above(self, energy_J) -> np.ndarray:  # noqa: N803
+    def power_above(self, energy_J) -> np.ndarray:
         x = np.maximum(np.asarray(energy_J, dtype=float), 0.0) / self._kt
         xs = np.maximum(x, 1e-12)
         return self._factor * self._kt**4 * bose_tail(3, xs, xs)
 
-    def spectral_photon_flux(self, energy_J) -> np.ndarray:  # noqa: N803
+    def spectral_photon_flux(self, energy_J) -> np.ndarray:
         e = np.maximum(np.asarray(energy_J, dtype=float), 1e-300)
         return self._factor * e**2 / np.expm1(e / self._kt)
 
@@ -415,3 +415,110 @@ class BlackbodySun(Spectrum):
             "concentration", c_new, 0.0, MAX_CONCENTRATION, low_inclusive=False, unit="suns"
         )
         return BlackbodySun(self.sun_temperature_K, c_new, scale)
+
+
+@dataclass(frozen=True, eq=False)
+class SpectrumSeries:
+    """A batch of ``H`` spectra on one wavelength grid (e.g. the daylight hours of a year).
+
+    The cumulative photon-flux and power tables of every spectrum, ``(H, L)``, are built
+    once at construction with the integration rule of :class:`TabulatedSpectrum` (the
+    exact integrals of the piecewise-linear interpolant), so row ``h`` answers exactly as
+    ``TabulatedSpectrum(wavelength_nm, irradiance_W_m2_nm[h])`` would. Because the grid is
+    shared, the wavelength look-up of a gap is done once for all hours.
+
+    Parameters
+    ----------
+    wavelength_nm : numpy.ndarray
+        Strictly increasing, finite, positive wavelengths [nm], ``(L,)``.
+    irradiance_W_m2_nm : numpy.ndarray
+        Finite, non-negative spectral irradiance [W m^-2 nm^-1], ``(H, L)``; every row
+        must integrate to a positive irradiance.
+    name : str
+        Label used in tables and reports.
+    """
+
+    wavelength_nm: np.ndarray
+    irradiance_W_m2_nm: np.ndarray
+    name: str = "spectrum series"
+    _phi: np.ndarray = field(init=False, repr=False)
+    _cum_photons: np.ndarray = field(init=False, repr=False)
+    _cum_power: np.ndarray = field(init=False, repr=False)
+
+    def __post_init__(self) -> None:
+        wl = np.asarray(self.wavelength_nm, dtype=float)
+        irr = np.atleast_2d(np.asarray(self.irradiance_W_m2_nm, dtype=float))
+        if wl.ndim != 1 or irr.ndim != 2 or irr.shape[1] != wl.size:
+            raise InputError(
+                "spectrum series",
+                "needs wavelengths (L,) and irradiance (H, L) on that grid",
+                (wl.shape, irr.shape),
+            )
+        if wl.size < 2 or not np.all(np.isfinite(wl)) or np.any(wl <= 0):
+            raise InputError(
+                "spectrum series.wavelength_nm", "needs two or more finite wavelengths > 0 nm"
+            )
+        if np.any(np.diff(wl) <= 0):
+            raise InputError(
+                "spectrum series.wavelength_nm", "wavelengths must be strictly increasing"
+            )
+        if not np.all(np.isfinite(irr)) or np.any(irr < 0):
+            raise InputError(
+                "spectrum series.irradiance_W_m2_nm",
+                "irradiance must be finite and >= 0 W m^-2 nm^-1",
+            )
+        phi = irr * wl * 1e-9 / (H * C)
+        dl = np.diff(wl)
+        zero = np.zeros((irr.shape[0], 1))
+        cum_ph = np.concatenate((zero, np.cumsum(0.5 * dl * (phi[:, 1:] + phi[:, :-1]), axis=1)), 1)
+        cum_p = np.concatenate((zero, np.cumsum(0.5 * dl * (irr[:, 1:] + irr[:, :-1]), axis=1)), 1)
+        if np.any(cum_p[:, -1] <= 0):
+            h = int(np.argmax(cum_p[:, -1] <= 0))
+            raise InputError(
+                "spectrum series.irradiance_W_m2_nm",
+                f"spectrum {h} integrates to zero irradiance (leave such hours out)",
+            )
+        for k, v in (
+            ("wavelength_nm", wl),
+            ("irradiance_W_m2_nm", irr),
+            ("_phi", phi),
+            ("_cum_photons", cum_ph),
+            ("_cum_power", cum_p),
+        ):
+            v.setflags(write=False)
+            object.__setattr__(self, k, v)
+
+    def __len__(self) -> int:
+        return self.irradiance_W_m2_nm.shape[0]
+
+    @property
+    def total_irradiance_W_m2(self) -> np.ndarray:
+        """Integral of every spectrum [W m^-2], ``(H,)``."""
+        return self._cum_power[:, -1].copy()
+
+    def _cumulative(self, values, cum, energy_J) -> np.ndarray:
+        e = np.asarray(energy_J, dtype=float)
+        wl = self.wavelength_nm
+        with np.errstate(divide="ignore"):
+            lam = H * C / np.maximum(e, 1e-300) * 1e9
+        lam = np.clip(lam, wl[0], wl[-1])
+        k = np.clip(np.searchsorted(wl, lam, side="right") - 1, 0, wl.size - 2)
+        x = lam - wl[k]
+        slope = (values[:, k + 1] - values[:, k]) / (wl[k + 1] - wl[k])
+        return cum[:, k] + x * (values[:, k] + 0.5 * x * slope)
+
+    def photon_flux_above(self, energy_J) -> np.ndarray:
+        """Photon flux above ``energy_J`` [J] of every spectrum [m^-2 s^-1],
+        shape ``(H, *energy_J.shape)``."""
+        return self._cumulative(self._phi, self._cum_photons, energy_J)
+
+    def power_above(self, energy_J) -> np.ndarray:
+        """Power density of the photons above ``energy_J`` [J] [W m^-2],
+        shape ``(H, *energy_J.shape)``."""
+        return self._cumulative(self.irradiance_W_m2_nm, self._cum_power, energy_J)
+
+    def spectrum(self, h: int) -> TabulatedSpectrum:
+        """Spectrum ``h`` on its own."""
+        return TabulatedSpectrum(
+            self.wavelength_nm, self.irradiance_W_m2_nm[h], name=f"{self.name} [{h}]"
+        )

@@ -28,7 +28,7 @@ import numpy as np
 __all__ = ["varshni_gap", "varshni_slope", "GapTemperature"]
 
 
-def varshni_gap(eg0, alpha, beta, temperature_K):  # noqa: N803
+def varshni_gap(eg0, alpha, beta, temperature_K):
     """Varshni band gap ``E_g(T) = E_g(0) - alpha T^2 / (T + beta)``.
 
     Parameters
@@ -55,7 +55,7 @@ def varshni_gap(eg0, alpha, beta, temperature_K):  # noqa: N803
     return np.asarray(eg0, dtype=float) - np.asarray(alpha, dtype=float) * t * t / (t + beta)
 
 
-def varshni_slope(alpha, beta, temperature_K):  # noqa: N803
+def varshni_slope(alpha, beta, temperature_K):
     """Temperature coefficient ``dE_g/dT = -alpha T (T + 2 beta) / (T + beta)^2``.
 
     Parameters
@@ -106,7 +106,7 @@ class GapTemperature:
     slope_J_K: np.ndarray
     reference_K: float = 300.0
 
-    def gaps_at(self, gaps_J, temperature_K):  # noqa: N803
+    def gaps_at(self, gaps_J, temperature_K):
         """Gaps [J] at the cell temperature.
 
         Parameters
@@ -133,7 +133,7 @@ class GapTemperature:
         shift = np.where(np.isfinite(dv), dv, np.where(np.isfinite(dl), dl, 0.0))
         return g + shift
 
-    def slope(self, temperature_K):  # noqa: N803
+    def slope(self, temperature_K):
         """dE_g/dT [J K^-1] per junction at ``temperature_K`` (0 where not modelled)."""
         with np.errstate(invalid="ignore"):
             v = varshni_slope(self.alpha_J_K, self.beta_K, temperature_K)

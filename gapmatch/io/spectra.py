@@ -29,17 +29,43 @@ STANDARD_SPECTRA = {"AM1.5G": "global", "AM1.5D": "direct", "AM0": "extraterrest
 SPECTRUM_CHOICES = (*STANDARD_SPECTRA, "blackbody")
 
 
+def _pvlib_g173_file() -> Path | None:
+    """pvlib's packaged ASTM G173-03 table, found without importing pvlib (slow)."""
+    import importlib.util
+
+    spec = importlib.util.find_spec("pvlib")
+    if spec is None or not spec.submodule_search_locations:
+        return None
+    p = Path(next(iter(spec.submodule_search_locations))) / "data" / "ASTMG173.csv"
+    return p if p.is_file() else None
+
+
 @cache
 def _g173(column: str) -> TabulatedSpectrum:
-    import pvlib
+    from importlib.metadata import version
 
-    table = pvlib.spectrum.get_reference_spectra(standard="ASTM G173-03")
     name = next(k for k, v in STANDARD_SPECTRA.items() if v == column)
+    path = _pvlib_g173_file()
+    if path is not None:
+        # the file pvlib.spectrum.get_reference_spectra reads (a title line, then
+        # wavelength and one column per spectrum); numpy parses it to the same doubles
+        import numpy as np
+
+        with path.open(encoding="utf-8") as fh:
+            fh.readline()
+            header = [h.strip() for h in fh.readline().split(",")]
+        data = np.loadtxt(path, delimiter=",", skiprows=2)
+        wl, irr = data[:, 0], data[:, header.index(column)]
+    else:  # pragma: no cover - a pvlib without the data file where expected
+        import pvlib
+
+        table = pvlib.spectrum.get_reference_spectra(standard="ASTM G173-03")
+        wl, irr = table.index.to_numpy(dtype=float), table[column].to_numpy(dtype=float)
     return TabulatedSpectrum(
-        table.index.to_numpy(dtype=float),
-        table[column].to_numpy(dtype=float),
+        wl,
+        irr,
         name=name,
-        source=f"ASTM G173-03 ({column}), as packaged with pvlib {pvlib.__version__}",
+        source=f"ASTM G173-03 ({column}), as packaged with pvlib {version('pvlib')}",
     )
 
 
@@ -101,7 +127,8 @@ def read_spectrum_csv(
     -------
     TabulatedSpectrum
         Its ``source`` names the file, the column and every unit conversion or
-        assumption made.
+        assumption made. The same object for repeated calls while the file is
+        unchanged (same path, modification time and size): it is read and validated once.
 
     Raises
     ------
@@ -113,6 +140,13 @@ def read_spectrum_csv(
         unlabelled µm or eV).
     """
     p = Path(path)
+    try:
+        st = p.stat()
+        key = (str(p.resolve()), st.st_mtime_ns, st.st_size, name, column)
+    except OSError:
+        key = None  # let the reader name the problem
+    if key is not None and key in _READ_CACHE:
+        return _READ_CACHE[key]
     field = f"spectrum file {p}"
     t = read_unit_table(p, field, "irradiance", column=column)
     lo, hi = WAVELENGTH_RANGE_NM
@@ -130,7 +164,16 @@ def read_spectrum_csv(
     spec = TabulatedSpectrum(
         t.wavelength_nm, t.values, name=name or p.stem, source=f"{p} ({t.describe()})"
     )
+    if key is not None:
+        if len(_READ_CACHE) >= 16:
+            _READ_CACHE.pop(next(iter(_READ_CACHE)))
+        _READ_CACHE[key] = spec
     return spec
+
+
+#: spectra read from files, by (path, modification time, size, name, column): a file that
+#: does not change is read and validated once per process, however many layers ask for it
+_READ_CACHE: dict[tuple, TabulatedSpectrum] = {}
 
 
 def _check_file_irradiance(spec: TabulatedSpectrum) -> None:
@@ -151,8 +194,8 @@ def get_spectrum(
     spectrum: str | Spectrum = "AM1.5G",
     *,
     spectrum_file: str | Path | None = None,
-    sun_temperature_K: float = 6000.0,  # noqa: N803
-    irradiance_W_m2: float | None = None,  # noqa: N803
+    sun_temperature_K: float = 6000.0,
+    irradiance_W_m2: float | None = None,
     concentration: float = 1.0,
     spectrum_column: int | str | None = None,
 ) -> Spectrum:

@@ -1,5 +1,9 @@
-"""Self-contained HTML reports of a study (see :mod:`gapmatch.report.sections` for the
-section registry and :mod:`gapmatch.report.figures` for the figures).
+"""Self-contained HTML reports of a study.
+
+The pieces: :mod:`.registry` (section names, titles, builders), :mod:`.context` (what a
+builder gets), :mod:`.html` (escaping and tables), :mod:`.sections` and the section
+modules beside it (the built-in sections), :mod:`.figures` and :mod:`.loss_figures`
+(plotly figures that only draw), :mod:`.builder` (the page).
 
 >>> from gapmatch.study import load_study                      # doctest: +SKIP
 >>> from gapmatch.report import build_report, write_report     # doctest: +SKIP
@@ -8,18 +12,17 @@ section registry and :mod:`gapmatch.report.figures` for the figures).
 
 from __future__ import annotations
 
-from . import physics_sections, search_section  # noqa: F401  (register their sections)
+from . import physics_sections, search_section, sections  # noqa: F401  (register sections)
 from .builder import Report, build_report, render_page, write_report
-from .sections import (
+from .context import ReportContext
+from .html import esc, para, table
+from .registry import (
     SECTIONS,
-    ReportContext,
     Section,
     SectionOutput,
+    check_section_names,
     default_sections,
-    esc,
-    para,
     register_section,
-    table,
 )
 
 __all__ = [
@@ -29,6 +32,7 @@ __all__ = [
     "Section",
     "SectionOutput",
     "build_report",
+    "check_section_names",
     "default_sections",
     "esc",
     "para",

@@ -22,7 +22,9 @@ from plotly.offline import get_plotlyjs
 
 from ..io.atomic import write_atomic
 from ..study import Study
-from .sections import SECTIONS, ReportContext, SectionOutput, esc
+from .context import ReportContext
+from .html import esc
+from .registry import SECTIONS, SectionOutput, check_section_names
 
 __all__ = ["Report", "build_report", "write_report", "render_page"]
 
@@ -231,8 +233,8 @@ def build_report(
     """
     from .. import __version__
 
+    names = check_section_names(study.sections)  # before anything is computed
     ctx = ReportContext(study)
-    names = list(study.sections)
     if "assumptions" not in names:  # the cautions are not optional
         names.append("assumptions")
     outputs = []

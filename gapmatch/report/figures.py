@@ -16,9 +16,7 @@ References
 
 from __future__ import annotations
 
-import html
 from collections.abc import Sequence
-from typing import Any
 
 import numpy as np
 import plotly.graph_objects as go
@@ -26,6 +24,7 @@ from plotly.subplots import make_subplots
 
 from ..maps import CutResult, MapResult, ToleranceWindow
 from ..units import HC_EV_NM, C, H
+from .html import esc
 
 __all__ = [
     "PALETTE",
@@ -56,11 +55,6 @@ _JUNCTION_FILL = [
     "rgba(86,180,233,0.35)",
     "rgba(213,94,0,0.30)",
 ]
-
-
-def esc(s: Any) -> str:
-    """HTML-escape any user value (page text and plotly labels)."""
-    return html.escape(str(s), quote=True)
 
 
 def _base_layout(fig: go.Figure, title: str, height: int = 560) -> None:
@@ -357,25 +351,12 @@ def difference_figure(m: MapResult, a: str = "independent", b: str = "series") -
     return fig
 
 
-def matched_line(m: MapResult, connection: str = "series") -> tuple[np.ndarray, np.ndarray]:
-    """Current-matched curve: for every first-axis gap, the second-axis gap where the two
-    axis junctions' photocurrents are equal (linear interpolation), NaN where none."""
-    ex = m.current_excess_mA_cm2(connection)
-    ys = np.full(m.x_eV.size, np.nan)
-    s = np.sign(ex)
-    change = (s[:-1] * s[1:] <= 0) & (s[:-1] != s[1:]) & m.descending[:-1]
-    for_cols = change.any(axis=0)
-    iy = np.argmax(change, axis=0)
-    cols = np.flatnonzero(for_cols)
-    e0, e1 = ex[iy[cols], cols], ex[iy[cols] + 1, cols]
-    f = e0 / (e0 - e1)
-    ys[cols] = m.y_eV[iy[cols]] + f * (m.y_eV[iy[cols] + 1] - m.y_eV[iy[cols]])
-    return m.x_eV, ys
-
-
-def mismatch_figure(m: MapResult, connection: str = "series") -> go.Figure:
-    """Photocurrent mismatch ``J_min / J_max`` of the stack, with the current-matched line
-    of the two axis junctions."""
+def mismatch_figure(
+    m: MapResult, connection: str = "series", matched: tuple | None = None
+) -> go.Figure:
+    """Draw the photocurrent mismatch ``J_min / J_max`` of the stack, with the
+    current-matched line ``matched = (x_eV, y_eV)`` of the two axis junctions (see
+    :meth:`gapmatch.maps.MapResult.matched_current_line`; computed here when omitted)."""
     r = m.mismatch_ratio(connection)
     keep = m.descending
     fig = go.Figure(
@@ -394,7 +375,7 @@ def mismatch_figure(m: MapResult, connection: str = "series") -> go.Figure:
             ),
         )
     )
-    x, y = matched_line(m, connection)
+    x, y = m.matched_current_line(connection) if matched is None else matched
     fig.add_trace(
         go.Scatter(
             x=x,
@@ -483,7 +464,7 @@ def cut_figure(cut: CutResult, materials: Sequence = (), title: str = "") -> go.
 _E_TICKS_EV = [4.0, 3.0, 2.5, 2.0, 1.75, 1.5, 1.25, 1.0, 0.9, 0.8, 0.7, 0.6, 0.5]
 
 
-def spectrum_figure(spectrum, gaps_eV: Sequence[float], name: str = "") -> go.Figure:  # noqa: N803
+def spectrum_figure(spectrum, gaps_eV: Sequence[float], name: str = "") -> go.Figure:
     """Spectral photon flux versus wavelength with each junction's absorbed band shaded
     and the gaps marked; a second axis on top gives photon energy [eV].
 

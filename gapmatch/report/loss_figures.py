@@ -5,7 +5,7 @@
 * :func:`junction_loss_figure` -- the same for the junctions of one stack.
 * :func:`thickness_figure` -- efficiency [%] (and each junction's photocurrent
   [mA cm^-2]) versus the thickness of one junction [nm], from
-  :func:`gapmatch.api.evaluate_thickness`.
+  :func:`gapmatch.api.thickness_sweep`.
 
 Every figure states in its title that the numbers are theoretical limits or model
 projections, not ratings.
@@ -19,8 +19,8 @@ import numpy as np
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
-from ..api import evaluate_thickness
-from ..results import LOSS_LABELS, BatchResult
+from ..results import LOSS_LABELS, BatchResult, ThicknessSweep
+from ..units import a_m2_to_ma_cm2
 
 __all__ = [
     "LOSS_COLOURS",
@@ -174,24 +174,15 @@ def junction_loss_figure(result: BatchResult, i: int = 0, *, percent: bool = Tru
     return fig
 
 
-def thickness_figure(
-    gaps_eV, thickness_nm, connection: str = "series", *, junction: int = 0, **kwargs
-) -> go.Figure:
-    """Efficiency versus the thickness of one junction (default the top cell).
+def thickness_figure(sweep: ThicknessSweep, connection: str = "series") -> go.Figure:
+    """Draw a thickness sweep (see :func:`gapmatch.api.thickness_sweep`).
 
     Parameters
     ----------
-    gaps_eV : sequence of float
-        One stack's gaps [eV], top first.
-    thickness_nm : array_like
-        Thicknesses of junction ``junction`` to evaluate [nm], 1 to 1e8.
+    sweep : ThicknessSweep
+        The computed sweep.
     connection : str
-        Connection, as in :func:`gapmatch.evaluate`.
-    junction : int
-        Junction whose thickness varies (0 = top).
-    **kwargs
-        Further :func:`gapmatch.evaluate` keywords (absorber model, Urbach energy, light
-        trapping, ...); see :func:`gapmatch.api.evaluate_thickness`.
+        Its connection (for the title).
 
     Returns
     -------
@@ -200,9 +191,10 @@ def thickness_figure(
         axis) against thickness [nm] on a logarithmic axis; the most efficient thickness
         is marked.
     """
-    th = np.asarray(thickness_nm, dtype=float)
-    res = evaluate_thickness(gaps_eV, th, connection, junction=junction, **kwargs)
-    eff = 100.0 * res.efficiency
+    th = sweep.thickness_nm
+    res = sweep.result
+    eff = sweep.efficiency_pct
+    jph = a_m2_to_ma_cm2(res.solution.jph)
     fig = make_subplots(specs=[[{"secondary_y": True}]])
     fig.add_trace(
         go.Scatter(
@@ -218,14 +210,14 @@ def thickness_figure(
         fig.add_trace(
             go.Scatter(
                 x=th,
-                y=0.1 * res.solution.jph[:, k],
+                y=jph[:, k],
                 mode="lines",
                 name=f"J_ph junction {k + 1} [mA cm^-2]",
                 line={"dash": "dot"},
             ),
             secondary_y=True,
         )
-    best = int(np.argmax(eff))
+    best = sweep.best()
     fig.add_trace(
         go.Scatter(
             x=[th[best]],
@@ -238,7 +230,7 @@ def thickness_figure(
         ),
         secondary_y=False,
     )
-    fig.update_xaxes(type="log", title_text=f"thickness of junction {junction + 1} [nm]")
+    fig.update_xaxes(type="log", title_text=f"thickness of junction {sweep.junction} [nm]")
     fig.update_yaxes(title_text="efficiency [%]", secondary_y=False)
     fig.update_yaxes(title_text="photocurrent [mA cm^-2]", secondary_y=True)
     fig.update_layout(

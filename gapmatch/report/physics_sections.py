@@ -24,10 +24,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..api import evaluate
+from ..api import evaluate, thickness_sweep
 from ..errors import InputError
+from .html import para, table
 from .loss_figures import loss_breakdown_figure, thickness_figure
-from .sections import SectionOutput, para, register_section, table
+from .registry import SectionOutput, register_section
 
 
 def _loss_results(ctx):
@@ -37,7 +38,7 @@ def _loss_results(ctx):
             gaps = [list(s.gaps_eV) for s in ctx.study.stacks]
             if not gaps:
                 continue
-            out[c] = evaluate(gaps, c, ctx.spectrum, losses=True, **ctx._cell_kwargs())
+            out[c] = evaluate(gaps, c, ctx.illumination, losses=True, **ctx.cell_options())
         return out
 
     return ctx.get("losses", make)
@@ -112,20 +113,21 @@ def thickness_section(ctx) -> SectionOutput:
         raise InputError("thickness.range_nm", "must be [low, high] with low < high [nm]", [lo, hi])
     th = np.geomspace(lo, hi, int(cfg.get("points", 40)))
     conn = cfg.get("connection", "series")
-    kw = ctx._cell_kwargs()
+    kw = ctx.cell_options()
     kw.pop("dark_current", None)  # finite absorbers use the Boltzmann form
     absorbers = ["step"] * len(gaps)
     absorbers[j - 1] = cfg.get("absorber", "direct")
-    fig = thickness_figure(
+    sweep = thickness_sweep(
         gaps,
         th,
         conn,
-        junction=j - 1,
-        spectrum=ctx.spectrum,
+        junction=j,
+        spectrum=ctx.illumination,
         absorber=absorbers,
         light_trapping=cfg.get("light_trapping", "single"),
         **kw,
     )
+    fig = thickness_figure(sweep, conn)
     fig.update_layout(title=f"{name}: efficiency versus thickness of junction {j}")
     return SectionOutput(
         blocks=[
@@ -139,5 +141,6 @@ def thickness_section(ctx) -> SectionOutput:
             ),
             fig,
         ],
+        data={"thickness.csv": sweep.to_frame()},
         summary={"stack": name, "junction": j, "range_nm": [float(lo), float(hi)]},
     )

@@ -7,21 +7,24 @@ resumable storage and parallel workers.
 
 from __future__ import annotations
 
-from ..search import constraint_costs, optimise
-from ..search.figures import (
-    constraint_cost_figure,
-    constraint_cost_table,
-    history_figure,
-    optima_table,
-    parallel_coordinates_figure,
-)
-from ..search.study_table import problem_from_study, search_settings
-from .sections import SectionOutput, para, register_section, table
+from .html import para, table
+from .registry import SectionOutput, register_section
 
 
 @register_section("search", "Band-gap search", default=False)
 def search_section(ctx) -> SectionOutput:
     """Best stack, distinct alternatives, history, trials and constraint costs."""
+    # the search (optuna) is imported only by reports that have this section
+    from ..search import constraint_costs, optimise
+    from ..search.figures import (
+        constraint_cost_figure,
+        constraint_cost_table,
+        history_figure,
+        optima_table,
+        parallel_coordinates_figure,
+    )
+    from ..search.study_table import problem_from_study, search_settings
+
     cfg = search_settings(ctx.study)
     problem = problem_from_study(ctx.study)
 

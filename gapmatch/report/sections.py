@@ -1,45 +1,35 @@
-"""Report sections: a registry of named builders, and the built-in sections.
+"""The built-in report sections (maps, tolerance, difference, mismatch, materials,
+stacks, cut, spectrum, J-V curves, assumptions).
 
-A section is a function ``build(ctx: ReportContext) -> SectionOutput`` registered under a
-name with :func:`register_section`. A study file selects sections by name, in order, in
-``study.sections``; sections registered with ``default=True`` are used when it gives
-none. A builder returns blocks in display order: HTML strings (the builder must escape
-every user string with :func:`esc`) and plotly figures (embedded by the page builder),
-plus data files written beside the report.
-
-Expensive shared results are computed once through the context's cache
-(``ctx.get(key, factory)``); ``ctx.map``, ``ctx.stack_results`` and ``ctx.cut`` are the
-built-in ones.
-
-Adding a section (e.g. in ``gapmatch/report/search_section.py``)::
-
-    from gapmatch.report.sections import SectionOutput, esc, register_section, table
-
-    @register_section("search", "Band-gap search", default=False)
-    def search_section(ctx):
-        res = ctx.get("search", lambda: run_search(ctx.study.extra["search"]))
-        return SectionOutput(blocks=["<p>...</p>", make_figure(res)],
-                             data={"search.csv": res.to_frame()})
-
-and import that module in :mod:`gapmatch.report` so the registration runs.
+Each is a builder registered with :func:`gapmatch.report.registry.register_section`; it
+reads shared results from the :class:`gapmatch.report.context.ReportContext`, returns
+escaped HTML blocks and plotly figures, and the data files (CSV) it shows. See
+``gapmatch/report/physics_sections.py`` (losses, thickness) and
+``gapmatch/report/search_section.py`` for sections kept in their own modules.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
-from typing import Any
+from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
-from ..api import evaluate, jv_curve
-from ..maps import CutResult, MapResult, compute_cut, compute_map
-from ..results import BatchResult, Conditions
-from ..study import Study
+from ..jv import jv_curve
+from ..maps import MapResult
+from ..results import Conditions
 from . import figures as figs
-from .figures import esc
+from .context import ReportContext
+from .html import esc, fmt, para, table
+from .registry import (
+    DEFAULT_SECTIONS,
+    SECTIONS,
+    Section,
+    SectionOutput,
+    default_sections,
+    register_section,
+)
 
 __all__ = [
     "SECTIONS",
@@ -52,238 +42,8 @@ __all__ = [
     "esc",
     "para",
     "table",
+    "figure_count",
 ]
-
-
-@dataclass
-class SectionOutput:
-    """What a section contributes.
-
-    Attributes
-    ----------
-    blocks : list
-        In display order: ``str`` (safe HTML) or :class:`plotly.graph_objects.Figure`.
-    data : dict
-        File suffix (e.g. ``"map.csv"``) -> DataFrame (written as CSV) or dict (JSON),
-        written beside the report as ``<study-name>_<suffix>``.
-    summary : dict
-        JSON-ready entries merged into ``<study-name>_summary.json`` under the section's
-        name.
-    """
-
-    blocks: list = field(default_factory=list)
-    data: dict = field(default_factory=dict)
-    summary: dict = field(default_factory=dict)
-
-
-@dataclass(frozen=True)
-class Section:
-    """A registered report section."""
-
-    name: str
-    title: str
-    build: Callable[[ReportContext], SectionOutput]
-    default: bool = True
-
-
-#: name -> Section, in registration order
-SECTIONS: dict[str, Section] = {}
-
-
-def register_section(name: str, title: str, *, default: bool = True):
-    """Decorator registering ``build(ctx) -> SectionOutput`` as report section ``name``.
-
-    Parameters
-    ----------
-    name : str
-        Name used in a study file's ``study.sections`` list.
-    title : str
-        Heading shown in the report.
-    default : bool
-        Include the section when a study lists no sections.
-    """
-
-    def deco(fn: Callable[[ReportContext], SectionOutput]):
-        if name in SECTIONS:
-            raise ValueError(f"report section {name!r} is already registered")
-        SECTIONS[name] = Section(name, title, fn, default)
-        return fn
-
-    return deco
-
-
-def default_sections() -> list[str]:
-    """Names of the sections used when a study gives none."""
-    return [s.name for s in SECTIONS.values() if s.default]
-
-
-class _Defaults(Sequence):
-    """Live view of :func:`default_sections` (so later registrations are included)."""
-
-    def __getitem__(self, i):
-        return default_sections()[i]
-
-    def __len__(self):
-        return len(default_sections())
-
-
-DEFAULT_SECTIONS = _Defaults()
-
-
-@dataclass
-class ReportContext:
-    """Everything a section builder needs, with a cache of shared results.
-
-    Attributes
-    ----------
-    study : Study
-        The validated study.
-    cache : dict
-        Shared results by key (see :meth:`get`).
-    """
-
-    study: Study
-    cache: dict = field(default_factory=dict)
-
-    def get(self, key: str, factory: Callable[[], Any]) -> Any:
-        """The cached result ``key``, computing it with ``factory()`` the first time."""
-        if key not in self.cache:
-            self.cache[key] = factory()
-        return self.cache[key]
-
-    # ---- built-in shared results -------------------------------------------------------
-    @property
-    def spectrum(self):
-        """The study's spectrum (scaled as the study says)."""
-        from ..io.spectra import get_spectrum
-
-        c = self.study.conditions
-
-        def make():
-            return get_spectrum(
-                c["spectrum"],
-                spectrum_file=c["spectrum_file"],
-                sun_temperature_K=c["sun_temperature_K"],
-                irradiance_W_m2=c["irradiance_W_m2"],
-                concentration=c["concentration"],
-            )
-
-        return self.get("spectrum", make)
-
-    def _cell_kwargs(self) -> dict:
-        c = self.study.conditions
-        return dict(temperature_K=c["temperature_K"], ere=c["ere"], dark_current=c["dark_current"])
-
-    @property
-    def map(self) -> MapResult:
-        """The study's efficiency map."""
-
-        def make():
-            kw = self.study.map_kwargs()
-            for k in (
-                "spectrum",
-                "spectrum_file",
-                "sun_temperature_K",
-                "irradiance_W_m2",
-                "concentration",
-            ):
-                kw.pop(k, None)
-            return compute_map(spectrum=self.spectrum, **kw)
-
-        return self.get("map", make)
-
-    @property
-    def map_connections(self) -> list[str]:
-        """Connections on the map."""
-        return list(self.map.connections)
-
-    @property
-    def stack_results(self) -> dict[tuple[str, str], BatchResult]:
-        """(stack name, connection) -> evaluation of every stack of interest."""
-
-        def make():
-            out = {}
-            for s in self.study.stacks:
-                for c in self.study.connections:
-                    out[(s.name, c)] = evaluate(
-                        list(s.gaps_eV), c, self.spectrum, **self._cell_kwargs()
-                    )
-            return out
-
-        return self.get("stacks", make)
-
-    @property
-    def cut(self) -> CutResult:
-        """Efficiency versus the top gap at the study's fixed bottom gap."""
-
-        def make():
-            m = self.study.map
-            n = self.study.n_junctions
-            base = list(m["stack_eV"]) if m["stack_eV"] is not None else [2.0, 1.0]
-            base[n - 1] = self.study.cut["bottom_gap_eV"]
-            lo, hi = m["x_range_eV"] if m["axes"][0] == 1 else (0.5, 2.5)
-            step = self.study.cut["step_eV"]
-            # only top gaps above every other gap (physical order)
-            lo = max(lo, round(max(base[1:]) + step, 9))
-            if lo >= hi:
-                hi = min(lo + 1.5, 5.0)
-            vals = np.round(lo + step * np.arange(int(np.floor((hi - lo) / step + 1e-9)) + 1), 9)
-            return compute_cut(
-                base, 1, vals, self.study.connections, spectrum=self.spectrum, **self._cell_kwargs()
-            )
-
-        return self.get("cut", make)
-
-    @property
-    def tolerance_pct(self) -> float:
-        return float(self.study.map["tolerance_pct"])
-
-
-# ---- HTML helpers ------------------------------------------------------------------------
-def table(
-    header: Sequence[str],
-    rows: Sequence[Sequence[Any]],
-    *,
-    caption: str = "",
-    numeric: Sequence[bool] | None = None,
-) -> str:
-    """An HTML table; every cell and header is escaped.
-
-    Parameters
-    ----------
-    header : sequence of str
-        Column headings (units in brackets).
-    rows : sequence of sequences
-        Cell values (already formatted strings or numbers).
-    caption : str
-        Caption (escaped).
-    numeric : sequence of bool, optional
-        Right-align these columns.
-    """
-    num = list(numeric) if numeric is not None else [False] * len(header)
-    th = "".join(
-        f'<th scope="col"{" class=num" if n else ""}>{esc(h)}</th>'
-        for h, n in zip(header, num, strict=False)
-    )
-    body = "".join(
-        "<tr>"
-        + "".join(
-            f"<td{' class=num' if n else ''}>{esc(c)}</td>" for c, n in zip(r, num, strict=False)
-        )
-        + "</tr>"
-        for r in rows
-    )
-    cap = f"<caption>{esc(caption)}</caption>" if caption else ""
-    return f'<table class="gm-table">{cap}<thead><tr>{th}</tr></thead><tbody>{body}</tbody></table>'
-
-
-def para(text: str) -> str:
-    """A paragraph of escaped text."""
-    return f"<p>{esc(text)}</p>"
-
-
-def _f(x, spec: str = ".2f") -> str:
-    return "–" if x is None or (isinstance(x, float) and x != x) else format(x, spec)
 
 
 def _stack_eff(ctx: ReportContext, conn: str) -> dict[str, float]:
@@ -460,6 +220,7 @@ def mismatch_section(ctx: ReportContext) -> SectionOutput:
     m = ctx.map
     if "series" not in m.connections:
         return SectionOutput([para("Needs series connection in study.connections; left out.")])
+    x, y = m.matched_current_line("series")
     return SectionOutput(
         [
             para(
@@ -468,8 +229,13 @@ def mismatch_section(ctx: ReportContext) -> SectionOutput:
                 "junctions generate equal photocurrent; a series stack loses the excess current of "
                 "the stronger junction away from it."
             ),
-            figs.mismatch_figure(m, "series"),
-        ]
+            figs.mismatch_figure(m, "series", (x, y)),
+        ],
+        data={
+            "matched_current.csv": pd.DataFrame(
+                {f"gap_{m.axes[0]}_eV": x, f"matched_gap_{m.axes[1]}_eV": y}
+            ).dropna()
+        },
     )
 
 
@@ -511,8 +277,8 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
                     c,
                     f"{d['efficiency_pct']:.2f}",
                     f"{d['pmpp_W_m2']:.1f}",
-                    _f(d["voc_V"], ".3f"),
-                    _f(d["jsc_mA_cm2"], ".2f"),
+                    fmt(d["voc_V"], ".3f"),
+                    fmt(d["jsc_mA_cm2"], ".2f"),
                     f"{d['ff']:.3f}",
                     f"{d['mismatch_ratio']:.3f}",
                     s.note,
@@ -626,7 +392,6 @@ def jv_section(ctx: ReportContext) -> SectionOutput:
             "point starred."
         )
     ]
-    c = st.conditions
     for s in st.stacks:
         panels = []
         for conn in st.connections:
@@ -635,15 +400,7 @@ def jv_section(ctx: ReportContext) -> SectionOutput:
             # keeps one column; with the Bose-Einstein form the unused columns can pass a
             # junction's gap and warn, so silence that and keep finite points only
             with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-                curves = jv_curve(
-                    r,
-                    0,
-                    ctx.spectrum,
-                    points=120,
-                    temperature_K=c["temperature_K"],
-                    ere=c["ere"],
-                    dark_current=c["dark_current"],
-                )
+                curves = jv_curve(r, 0, points=120)
             curves["junctions"] = [
                 (v[np.isfinite(j)], j[np.isfinite(j)]) for v, j in curves["junctions"]
             ]

@@ -40,21 +40,10 @@ import numpy as np
 
 from ..errors import InputError
 from .evaluator import EfficiencyEvaluator, Evaluator
-from .result import CandidateOutcome, RoadmapResult
+from .result import HEADROOM_ORDER, CandidateOutcome, RoadmapResult
 from .schema import Candidate, RoadmapStudy
 
 __all__ = ["HEADROOM_ORDER", "crn_uniforms", "run_roadmap", "design_gaps"]
-
-#: causes of the headroom, in the order they are switched off (each step evaluates the
-#: stack with that cause and all earlier ones removed; the differences add up to the
-#: radiative limit minus the likely value)
-HEADROOM_ORDER = (
-    ("resistance", "series resistance set to 0"),
-    ("collection", "collection efficiency set to 1"),
-    ("thickness", "finite absorbers replaced by step absorbers (full absorption above the gap)"),
-    ("non_radiative", "ERE set to 1 (radiative recombination only)"),
-    ("current_mismatch", "sub-cells connected independently (no current or voltage matching)"),
-)
 
 
 def crn_uniforms(seed: int, material: str, parameter: str, year: int, n: int) -> np.ndarray:

@@ -23,6 +23,18 @@ from .schema import Candidate, RoadmapStudy  # noqa: F401 - documented types
 if TYPE_CHECKING:  # pandas loads only when a table is asked for
     import pandas as pd
 
+#: causes of the headroom, in the order they are switched off (each step evaluates the
+#: stack with that cause and all earlier ones removed; the differences add up to the
+#: radiative limit minus the likely value)
+HEADROOM_ORDER = (
+    ("resistance", "series resistance set to 0"),
+    ("collection", "collection efficiency set to 1"),
+    ("thickness", "finite absorbers replaced by step absorbers (full absorption above the gap)"),
+    ("non_radiative", "ERE set to 1 (radiative recombination only)"),
+    ("current_mismatch", "sub-cells connected independently (no current or voltage matching)"),
+)
+
+
 __all__ = ["CandidateOutcome", "RoadmapResult", "CAUTION"]
 
 #: caution attached to every roadmap output
@@ -295,8 +307,6 @@ class RoadmapResult:
     # ---- JSON ----------------------------------------------------------------------------
     def to_dict(self) -> dict:
         """The JSON object of ``gapmatch roadmap --json``."""
-        from .engine import HEADROOM_ORDER
-
         u, s = self.unit, self.evaluator.scale
         st = self.study
         miles = []
