@@ -127,6 +127,7 @@ def test_three_junction_landscape_is_multimodal(three_junction_reference):
     assert 0 < 100 * (e_hi - e_lo) < 0.5
 
 
+@pytest.mark.slow  # 2.6 s (ten seeded searches)
 def test_three_junction_series_global_in_nine_of_ten_seeds(three_junction_reference):
     g_ref, e_ref = three_junction_reference["high"]
     problem = make_problem(3, "series")
@@ -222,6 +223,7 @@ def test_resume_continues_trial_count(tmp_path):
         )
 
 
+@pytest.mark.slow  # 8.9 s (two worker processes)
 def test_two_workers_share_one_sqlite_study(tmp_path):
     db = tmp_path / "shared.db"
     res = optimise(
@@ -435,6 +437,7 @@ def test_extra_variables_are_rejected_for_now():
         make_problem(2, objective=Thick())
 
 
+@pytest.mark.slow  # 3.6 s
 def test_voltage_matched_search_two_junctions():
     # the automatic string ratio is slow, so the search shrinks its Sobol stage; the result
     # must still match a 2 meV exhaustive grid of the checked API around the optimum and
