@@ -235,8 +235,8 @@ def test_best_two_junction_pair_on_the_map_grid(connection):
     )
     assert eff[k] == pytest.approx(ref["best_on_10meV_grid_efficiency"], rel=RTOL_MPP)
     # and at the reference's refined (0.2 meV grid) optimum
-    best = gm.evaluate(ref["best_on_0.2meV_grid_gaps_eV"], connection).efficiency[0]
-    assert best == pytest.approx(ref["best_on_0.2meV_grid_efficiency"], rel=RTOL_MPP)
+    best = gm.evaluate(ref["best_refined_gaps_eV"], connection).efficiency[0]
+    assert best == pytest.approx(ref["best_refined_efficiency"], rel=RTOL_MPP)
     assert best >= eff[k] * (1 - RTOL_MPP)
 
 
