@@ -21,3 +21,13 @@ def am15g():
     import gapmatch as gm
 
     return gm.standard_spectrum("AM1.5G")
+
+
+@pytest.fixture(scope="session")
+def references():
+    """High-precision reference values (``tests/data/references.json``), computed with
+    mpmath by ``tests/data/make_references.py`` without gapmatch; see that script."""
+    import json
+    from pathlib import Path
+
+    return json.loads((Path(__file__).parent / "data" / "references.json").read_text())

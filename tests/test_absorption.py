@@ -1,4 +1,4 @@
-"""Finite absorbers, light trapping and light passed down the stack (issue 5, section 1)."""
+"""Finite absorbers, light trapping and light passed down the stack."""
 
 from __future__ import annotations
 
@@ -48,7 +48,7 @@ def test_very_thick_absorber_recovers_step(connection, model, trapping):
 @pytest.mark.parametrize("urbach_meV", [0.0, 15.0])
 def test_thinner_top_passes_exactly_its_unabsorbed_photons_down(urbach_meV):
     # Energy (photon) conservation through the stack: what the top cell no longer absorbs
-    # reaches the bottom cell (issue 5 section 5; the tail of 15 meV ends 25 E_U below the
+    # reaches the bottom cell (the tail of 15 meV ends 25 E_U below the
     # 1.72 eV gap, still above 1.12 eV, so every photon the top cell gives up is above the
     # bottom gap). Tolerance 1e-9 of the top photocurrent: rounding of bin sums.
     th = np.array([30.0, 100.0, 300.0, 1000.0, 1e4, 1e5])
@@ -248,7 +248,7 @@ def test_thickness_hook_validation():
 
 
 def test_thinning_a_low_gap_top_cell_current_matches_a_series_stack():
-    # Issue 5 section 1: a series stack whose top gap is too low (1.55 eV on 1.12 eV is
+    # A series stack whose top gap is too low (1.55 eV on 1.12 eV is
     # bottom-limited) is current-matched by thinning the top cell, which passes light to
     # the bottom cell: the efficiency has an interior maximum above the thick-top value.
     th = np.geomspace(50.0, 1e6, 60)

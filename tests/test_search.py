@@ -3,10 +3,11 @@
 External references used here:
 * exhaustive grids computed in the test with the batch evaluator (independent of the
   search's sampling and polish);
-* detailed-balance literature values for 2-junction stacks under AM1.5G at 300 K, quoted
-  from memory (about 45.7 % series near 1.63 / 0.96 eV, about 46.1 % independent near
-  1.73 / 0.94 eV; e.g. S. P. Bremner, M. Y. Levy and C. B. Honsberg, Prog. Photovolt. 16,
-  225 (2008), whose figures show these optima);
+* the 2-junction AM1.5G optima at 300 K of ``tests/data/references.json`` (direct
+  maximisation at 30 digits on 0.2 meV grids by ``tests/data/make_references.py``; they
+  agree with the literature's about 45.7 % series near 1.63 / 0.96 eV and about 46.1 %
+  independent near 1.73 / 0.94 eV, quoted from memory, e.g. S. P. Bremner, M. Y. Levy and
+  C. B. Honsberg, Prog. Photovolt. 16, 225 (2008));
 * common practice, no source: the best series top cell on a 1.12 eV silicon bottom cell
   is near 1.73 eV.
 """
@@ -68,11 +69,8 @@ def fast(problem, **kw):
 
 
 # ---- 2-junction global optima ----------------------------------------------------------
-@pytest.mark.parametrize(
-    "connection, lit_eff_pct, lit_gaps",
-    [("series", 45.7, (1.63, 0.96)), ("independent", 46.1, (1.73, 0.94))],
-)
-def test_two_junction_global_optimum(connection, lit_eff_pct, lit_gaps):
+@pytest.mark.parametrize("connection", ["series", "independent"])
+def test_two_junction_global_optimum(connection, references):
     res = fast(make_problem(2, connection))
     # exhaustive 2 meV grid over the whole plausible region, refined at 0.2 meV
     ref_g, ref_e = grid_optimum(
@@ -83,9 +81,10 @@ def test_two_junction_global_optimum(connection, lit_eff_pct, lit_gaps):
     # (2e-3 eV allows for the flat direction along the current-matching ridge)
     assert res.best_value >= ref_e - 1e-6
     assert np.max(np.abs(res.best_gaps_eV - ref_g)) < 2e-3
-    # literature values from memory are quoted to 0.1 % and 0.01-0.02 eV
-    assert abs(100 * res.best_value - lit_eff_pct) < 0.1
-    assert np.max(np.abs(res.best_gaps_eV - lit_gaps)) < 0.02
+    # the same against the 30-digit reference optimum (tolerances as above)
+    ref = next(o for o in references["two_junction_optima"] if o["connection"] == connection)
+    assert res.best_value >= ref["best_refined_efficiency"] - 1e-6
+    assert np.max(np.abs(res.best_gaps_eV - ref["best_refined_gaps_eV"])) < 2e-3
     assert res.certified
 
 
@@ -127,6 +126,7 @@ def test_three_junction_landscape_is_multimodal(three_junction_reference):
     assert 0 < 100 * (e_hi - e_lo) < 0.5
 
 
+@pytest.mark.slow  # 2.6 s (ten seeded searches)
 def test_three_junction_series_global_in_nine_of_ten_seeds(three_junction_reference):
     g_ref, e_ref = three_junction_reference["high"]
     problem = make_problem(3, "series")
@@ -174,7 +174,7 @@ def test_spacing_constraint_and_windows():
     assert (ok["gap_1_eV"] - ok["gap_2_eV"] >= 0.3 - 1e-9).all()
 
 
-def test_constraint_costs():
+def test_constraint_costs(references):
     from gapmatch.search import constraint_costs
 
     problem = make_problem(2, "series", fixed_eV={2: 1.12})
@@ -182,9 +182,10 @@ def test_constraint_costs():
     costs = constraint_costs(problem, res.best_gaps_eV, res.best_value)
     fixed = [c for c in costs if "fixed" in c["constraint"]]
     assert len(fixed) == 1 and fixed[0]["active"]
-    # without the fixed 1.12 eV bottom gap the 2J series optimum is the free one (45.7 %,
-    # literature value from memory, see module docstring)
-    assert abs(fixed[0]["without_pct"] - 45.7) < 0.1
+    # without the fixed 1.12 eV bottom gap the 2J series optimum is the free one (the
+    # reference optimum, see module docstring); 0.1 abs % as the 15-trial search is short
+    free = next(o for o in references["two_junction_optima"] if o["connection"] == "series")
+    assert abs(fixed[0]["without_pct"] - 100 * free["best_refined_efficiency"]) < 0.1
     assert fixed[0]["cost_pct"] > 0.5
 
 
@@ -222,7 +223,8 @@ def test_resume_continues_trial_count(tmp_path):
         )
 
 
-def test_two_workers_share_one_sqlite_study(tmp_path):
+@pytest.mark.slow  # 8.9 s (two worker processes)
+def test_two_workers_share_one_sqlite_study(tmp_path, references):
     db = tmp_path / "shared.db"
     res = optimise(
         make_problem(2, "series"),
@@ -237,7 +239,10 @@ def test_two_workers_share_one_sqlite_study(tmp_path):
     assert res.n_trials >= 40
     # the Sobol seeds run in the calling process, the sampler trials in the two workers
     assert explore.loc[explore["stage"] == "sampler", "worker_pid"].nunique() == 2
-    assert abs(100 * res.best_value - 45.7) < 0.1  # literature value from memory
+    # within 0.1 abs % of the reference optimum (module docstring): the test is about the
+    # workers, and 40 trials plus the polish are enough for that
+    free = next(o for o in references["two_junction_optima"] if o["connection"] == "series")
+    assert abs(100 * res.best_value - 100 * free["best_refined_efficiency"]) < 0.1
 
 
 # ---- CLI -------------------------------------------------------------------------------
@@ -435,6 +440,7 @@ def test_extra_variables_are_rejected_for_now():
         make_problem(2, objective=Thick())
 
 
+@pytest.mark.slow  # 3.6 s
 def test_voltage_matched_search_two_junctions():
     # the automatic string ratio is slow, so the search shrinks its Sobol stage; the result
     # must still match a 2 meV exhaustive grid of the checked API around the optimum and

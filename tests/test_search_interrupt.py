@@ -11,8 +11,12 @@ import time
 from pathlib import Path
 
 import optuna
+import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
+
+# 6.2 s: the test starts the CLI twice and waits for trials before interrupting it
+pytestmark = pytest.mark.slow
 
 
 def _complete(db: Path, name: str) -> int:

@@ -157,6 +157,7 @@ def test_cli_errors_are_one_line(capsys, argv, match):
     assert re.search(match, err)
 
 
+@pytest.mark.slow  # 2.3 s (a CLI subprocess per command)
 def test_help_documents_units_and_ranges():
     out = subprocess.run(
         [sys.executable, "-m", "gapmatch", "evaluate", "--help"],
