@@ -282,13 +282,13 @@ def clear_sky_spectra(
     out = pvlib.spectrum.spectrl2(
         apparent_zenith=z,
         aoi=aoi,
-        surface_tilt=surface_tilt_deg,
-        ground_albedo=albedo,
-        surface_pressure=pressure_Pa,
+        surface_tilt=np.asarray(surface_tilt_deg, float),
+        ground_albedo=np.asarray(albedo, float),
+        surface_pressure=np.asarray(pressure_Pa, float),
         relative_airmass=am,
-        precipitable_water=precipitable_water_cm,
-        ozone=ozone_atm_cm,
-        aerosol_turbidity_500nm=aerosol_turbidity_500nm,
+        precipitable_water=np.asarray(precipitable_water_cm, float),
+        ozone=np.asarray(ozone_atm_cm, float),
+        aerosol_turbidity_500nm=np.asarray(aerosol_turbidity_500nm, float),
         dayofyear=np.atleast_1d(dayofyear),
         alpha=angstrom_alpha,
     )
@@ -433,7 +433,7 @@ def hourly_spectra(
     times = weather.times[rows]
     cs = clear_sky_spectra(
         g["apparent_zenith_deg"],
-        times.dayofyear.to_numpy(),
+        times.day_of_year.to_numpy(),
         atm["pressure_Pa"],
         atm["precipitable_water_cm"],
         ozone,
