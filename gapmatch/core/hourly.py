@@ -181,9 +181,15 @@ def step_photocurrents_hourly(table: PhotonTable, gaps_J: np.ndarray) -> np.ndar
         f = table.photon_flux_above(uniq)[:, inv.reshape(g.shape)]
     else:
         f = table.photon_flux_above_rows(g)
-    acc = np.maximum.accumulate(f, axis=-1)
-    out = acc.copy()
-    out[..., 1:] -= acc[..., :-1]
+    # running maximum over the (few) junctions, column by column: faster than
+    # numpy.maximum.accumulate along a short last axis
+    out = np.empty_like(f)
+    acc = f[..., 0]
+    out[..., 0] = acc
+    for i in range(1, f.shape[-1]):
+        nxt = np.maximum(acc, f[..., i])
+        out[..., i] = nxt - acc
+        acc = nxt
     return Q * out
 
 
@@ -237,9 +243,11 @@ def series_mpp_boltzmann(
     idx = np.flatnonzero(jmin > 0)
     if idx.size == 0:
         return p_out, j_out
+    # (jph - J) + J0 rather than (jph + J0) - J: J0 can be far below jph's rounding
     cols = [
         (
-            np.ascontiguousarray(jph[idx, i] + j0[idx, i]),
+            np.ascontiguousarray(jph[idx, i]),
+            np.ascontiguousarray(j0[idx, i]),
             np.ascontiguousarray(lnj0[idx, i]),
             np.ascontiguousarray(vt[idx, i]),
         )
@@ -252,7 +260,7 @@ def series_mpp_boltzmann(
         limi = lim[idx]
         j0l = j0[idx, limi]
         vtl = vt[idx, limi]
-        v_other = sum(v * (np.log(a - hi) - l0) for a, l0, v in cols)
+        v_other = sum(v * (np.log((a - hi) + z) - l0) for a, z, l0, v in cols)
         big_l = np.maximum(1.0 + np.log1p(hi / j0l) + v_other / vtl, 1.0)
         y = np.maximum(big_l - np.log(big_l), 0.5)
         for _ in range(2):
@@ -264,8 +272,8 @@ def series_mpp_boltzmann(
         jfin = np.empty(idx.size)
         for _ in range(200):
             s = s1 = s2 = 0.0
-            for a, l0, v in cols:
-                d = a - j
+            for a, z, l0, v in cols:
+                d = (a - j) + z
                 s = s + v * (np.log(d) - l0)
                 w = v / d
                 s1 = s1 + w
@@ -286,18 +294,13 @@ def series_mpp_boltzmann(
             keep = ~done
             if keep.sum() < 0.6 * keep.size:
                 sel, lo, hi, tol, jn = sel[keep], lo[keep], hi[keep], tol[keep], jn[keep]
-                cols = [(a[keep], l0[keep], v[keep]) for a, l0, v in cols]
+                cols = [(a[keep], z[keep], l0[keep], v[keep]) for a, z, l0, v in cols]
             j = jn
         # the voltage at the converged current
-        full = [
-            (
-                jph[idx, i] + j0[idx, i],
-                lnj0[idx, i],
-                vt[idx, i],
-            )
+        vsum = sum(
+            vt[idx, i] * (np.log((jph[idx, i] - jfin) + j0[idx, i]) - lnj0[idx, i])
             for i in range(n)
-        ]
-        vsum = sum(v * (np.log(a - jfin) - l0) for a, l0, v in full)
+        )
     j_out[idx] = jfin
     p_out[idx] = jfin * vsum
     return p_out, j_out

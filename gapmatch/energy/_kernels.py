@@ -34,16 +34,15 @@ except ImportError:  # pragma: no cover
 __all__ = ["HAVE_NUMBA", "series_mpp_rows"]
 
 
-def _kernel(a, lnj0, vt, p_out, j_out, xtol):  # pragma: no cover - compiled
-    rows, n = a.shape
+def _kernel(jph, j0, lnj0, vt, p_out, j_out, xtol):  # pragma: no cover - compiled
+    rows, n = jph.shape
     for r in numba.prange(rows):
-        # limiting junction: the smallest photocurrent (a = jph + j0)
+        # limiting junction: the smallest photocurrent
         lim = 0
-        jmin = a[r, 0] - math.exp(lnj0[r, 0])
+        jmin = jph[r, 0]
         for i in range(1, n):
-            ji = a[r, i] - math.exp(lnj0[r, i])
-            if ji < jmin:
-                jmin = ji
+            if jph[r, i] < jmin:
+                jmin = jph[r, i]
                 lim = i
         if not jmin > 0.0:
             p_out[r] = 0.0
@@ -51,11 +50,12 @@ def _kernel(a, lnj0, vt, p_out, j_out, xtol):  # pragma: no cover - compiled
             continue
         hi = jmin
         tol = xtol * hi
-        j0l = math.exp(lnj0[r, lim])
+        j0l = j0[r, lim]
         vtl = vt[r, lim]
+        # the others' voltage at jmin: (jph - J) + J0 keeps J0 where J0 << jph
         v_other = 0.0
         for i in range(n):
-            v_other += vt[r, i] * (math.log(a[r, i] - hi) - lnj0[r, i])
+            v_other += vt[r, i] * (math.log((jph[r, i] - hi) + j0[r, i]) - lnj0[r, i])
         big_l = 1.0 + math.log1p(hi / j0l) + v_other / vtl
         if big_l < 1.0:
             big_l = 1.0
@@ -70,16 +70,41 @@ def _kernel(a, lnj0, vt, p_out, j_out, xtol):  # pragma: no cover - compiled
         j = min(max(j, 0.0), hi)
         lo = 0.0
         jn = j
+        # one thermal voltage for the whole string (the usual case: one cell
+        # temperature): S = vt (ln prod d_i - sum ln J0_i), one logarithm per step
+        same_vt = True
+        sum_lnj0 = 0.0
+        for i in range(n):
+            sum_lnj0 += lnj0[r, i]
+            if vt[r, i] != vtl:
+                same_vt = False
         for _ in range(200):
             s = 0.0
             s1 = 0.0
             s2 = 0.0
-            for i in range(n):
-                d = a[r, i] - j
-                s += vt[r, i] * (math.log(d) - lnj0[r, i])
-                w = vt[r, i] / d
-                s1 += w
-                s2 += w / d
+            if same_vt:
+                prod = 1.0
+                for i in range(n):
+                    d = (jph[r, i] - j) + j0[r, i]
+                    prod *= d
+                    w = 1.0 / d
+                    s1 += w
+                    s2 += w * w
+                if prod > 1e-300 and prod < 1e300:
+                    s = vtl * (math.log(prod) - sum_lnj0)
+                else:
+                    for i in range(n):
+                        s += math.log((jph[r, i] - j) + j0[r, i]) - lnj0[r, i]
+                    s *= vtl
+                s1 *= vtl
+                s2 *= vtl
+            else:
+                for i in range(n):
+                    d = (jph[r, i] - j) + j0[r, i]
+                    s += vt[r, i] * (math.log(d) - lnj0[r, i])
+                    w = vt[r, i] / d
+                    s1 += w
+                    s2 += w / d
             js1 = j * s1
             f = s / js1 - 1.0
             fp = -(js1 * s1 + s * s1 + s * j * s2) / (js1 * js1)
@@ -95,7 +120,7 @@ def _kernel(a, lnj0, vt, p_out, j_out, xtol):  # pragma: no cover - compiled
             j = jn
         v = 0.0
         for i in range(n):
-            v += vt[r, i] * (math.log(a[r, i] - jn) - lnj0[r, i])
+            v += vt[r, i] * (math.log((jph[r, i] - jn) + j0[r, i]) - lnj0[r, i])
         p_out[r] = jn * v
         j_out[r] = jn
 
@@ -111,7 +136,7 @@ def _get_kernel():
 
 
 def series_mpp_rows(
-    jph: np.ndarray, lnj0: np.ndarray, vt: np.ndarray
+    jph: np.ndarray, lnj0: np.ndarray, vt: np.ndarray, j0: np.ndarray | None = None
 ) -> tuple[np.ndarray, np.ndarray]:
     """Maximum power point of every row's series string of Boltzmann diodes.
 
@@ -121,9 +146,11 @@ def series_mpp_rows(
         Photocurrent densities [A m^-2], ``(R, N)``.
     lnj0 : numpy.ndarray
         Natural log of each junction's dark saturation current density
-        [ln(A m^-2)], ``(R, N)`` (``ln J0_rad - ln ERE``).
+        [ln(A m^-2)], broadcast to ``(R, N)`` (``ln J0_rad - ln ERE``).
     vt : numpy.ndarray
-        Thermal voltage kT/q [V], ``(R, N)``.
+        Thermal voltage kT/q [V], broadcast to ``(R, N)``.
+    j0 : numpy.ndarray, optional
+        ``exp(lnj0)`` when already at hand [A m^-2].
 
     Returns
     -------
@@ -131,10 +158,11 @@ def series_mpp_rows(
         ``(p_mpp [W m^-2], j_mpp [A m^-2])``, ``(R,)`` each; zero where a junction
         receives no light.
     """
-    lnj0 = np.ascontiguousarray(np.broadcast_to(lnj0, jph.shape), dtype=float)
-    vt = np.ascontiguousarray(np.broadcast_to(vt, jph.shape), dtype=float)
-    a = np.ascontiguousarray(jph, dtype=float) + np.exp(lnj0)
-    p = np.empty(a.shape[0])
-    j = np.empty(a.shape[0])
-    _get_kernel()(a, lnj0, vt, p, j, XTOL_REL)
+    jph = np.asarray(jph, dtype=float)
+    lnj0 = np.broadcast_to(np.asarray(lnj0, dtype=float), jph.shape)
+    vt = np.broadcast_to(np.asarray(vt, dtype=float), jph.shape)
+    j0 = np.exp(lnj0) if j0 is None else np.broadcast_to(np.asarray(j0, float), jph.shape)
+    p = np.empty(jph.shape[0])
+    j = np.empty(jph.shape[0])
+    _get_kernel()(jph, j0, lnj0, vt, p, j, XTOL_REL)
     return p, j

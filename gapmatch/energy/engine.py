@@ -71,16 +71,58 @@ class YieldArrays:
     hourly_power_W_m2: dict | None = None
 
 
-def _power_rows(connection, jph, gaps, t, ere, dark_model, emission_factor, kernel):
+class _Block:
+    """Gaps and temperatures of one block of rows (interval-major, stack-minor), built
+    lazily so that the compiled path never materialises per-row copies it can index."""
+
+    def __init__(self, gaps, t_hours, n, gap_temperature):
+        self.gaps, self.t_hours, self.n, self.gt = gaps, t_hours, n, gap_temperature
+        self.shape3 = (t_hours.size, gaps.shape[0], n)
+        self.rows = t_hours.size * gaps.shape[0]
+        self._g3 = None
+
+    @property
+    def gaps3(self):
+        """Gaps [J] at each row's temperature, ``(H_b, M_b, N)``."""
+        if self._g3 is None:
+            if self.gt is None:
+                self._g3 = np.broadcast_to(self.gaps, self.shape3)
+            else:
+                t = np.broadcast_to(self.t_hours[:, None, None], self.shape3)
+                self._g3 = self.gt.gaps_at(np.broadcast_to(self.gaps, self.shape3), t)
+        return self._g3
+
+    def gaps_rows(self):
+        """Gaps [J] per row, ``(R, N)``."""
+        return np.ascontiguousarray(self.gaps3).reshape(self.rows, self.n)
+
+    def t_rows(self):
+        """Cell temperature [K] per row and junction, ``(R, N)``."""
+        t = np.repeat(self.t_hours, self.gaps.shape[0])
+        return np.broadcast_to(t[:, None], (self.rows, self.n))
+
+    def ln_j0(self, ere, emission_factor):
+        """ln of the dark saturation current [ln(A m^-2)] per row, ``(R, N)``."""
+        if self.gt is None and np.ndim(ere) == 0 and np.ndim(emission_factor) == 0:
+            # depends on (gap, temperature) only: once per distinct gap and interval
+            uniq, inv = np.unique(self.gaps, return_inverse=True)
+            ln_u = ln_j0_radiative(uniq[None, :], self.t_hours[:, None], emission_factor)
+            ln_u -= np.log(ere)
+            return ln_u[:, inv.reshape(self.gaps.shape)].reshape(self.rows, self.n)
+        return ln_j0_radiative(self.gaps_rows(), self.t_rows(), emission_factor) - np.log(ere)
+
+
+def _power_rows(connection, jph, block, ere, dark_model, emission_factor, kernel):
     """Maximum power [W m^-2] of every row (rows = interval x stack), ``(R,)``."""
     if connection == "series" and dark_model == "boltzmann":
         if kernel == "compiled" and _kernels.HAVE_NUMBA:
-            lnj0 = ln_j0_radiative(gaps, t, emission_factor) - np.log(ere)
-            p, _ = _kernels.series_mpp_rows(jph, lnj0, K_B * t / Q)
+            lnj0 = block.ln_j0(ere, emission_factor)
+            vt = np.repeat(block.t_hours * (K_B / Q), block.gaps.shape[0])[:, None]
+            p, _ = _kernels.series_mpp_rows(jph, lnj0, vt)
             return p
-        p, _ = series_mpp_boltzmann(jph, gaps, t, ere, emission_factor)
+        p, _ = series_mpp_boltzmann(jph, block.gaps_rows(), block.t_rows(), ere, emission_factor)
         return p
-    d = make_diodes(dark_model, jph, gaps, t, ere, emission_factor)
+    d = make_diodes(dark_model, jph, block.gaps_rows(), block.t_rows(), ere, emission_factor)
     if connection == "series":
         return solve_series(d).p_mpp
     if connection == "independent":
@@ -178,25 +220,19 @@ def run_yield(
         rows = order[h0 : h0 + hb]
         gs = g[s0 : s0 + sb]
         ms = gs.shape[0]
+        nr = rows.size * ms
         sub = table.take(rows)
-        t = tc[rows][:, None, None]
-        if gap_temperature is not None:
-            gh = gap_temperature.gaps_at(
-                np.broadcast_to(gs, (rows.size, ms, n)), np.broadcast_to(t, (rows.size, ms, n))
-            )
-        else:
-            gh = np.broadcast_to(gs, (rows.size, ms, n))
-        jph = step_photocurrents_hourly(sub, gh if gap_temperature is not None else gs)
-        tt = np.broadcast_to(t, jph.shape).reshape(-1, n)
-        flat_j = jph.reshape(-1, n)
-        flat_g = np.ascontiguousarray(gh).reshape(-1, n)
+        th = tc[rows]
+        block = _Block(gs, th, n, gap_temperature)
+        jph = step_photocurrents_hourly(sub, block.gaps3 if gap_temperature else gs)
+        flat_j = jph.reshape(nr, n)
         wb = w[rows]
         bb = b[rows]
         starts = np.flatnonzero(np.r_[True, bb[1:] != bb[:-1]])
         charge[bb[starts], s0 : s0 + ms] += np.add.reduceat(jph * wb[:, None, None], starts, axis=0)
         pb = poa[rows]
         for c in connections:
-            p = _power_rows(c, flat_j, flat_g, tt, ere_a, dark_model, ef_a, kernel)
+            p = _power_rows(c, flat_j, block, ere_a, dark_model, ef_a, kernel)
             p = p.reshape(rows.size, ms)
             energy[c][bb[starts], s0 : s0 + ms] += np.add.reduceat(p * wb[:, None], starts, axis=0)
             lit = pb > 0
