@@ -67,7 +67,7 @@ def test_broadband_closure_to_pvlib_transposition(tmy, transposition, tracking):
         b["dni"],
         b["ghi"],
         b["dhi"],
-        dni_extra=pvlib.irradiance.get_extra_radiation(hs.times).to_numpy(),
+        dni_extra=pvlib.irradiance.get_extra_radiation(hs.times.day_of_year.to_numpy()),
         airmass=pvlib.atmosphere.get_relative_airmass(b["apparent_zenith_deg"]),
         albedo=0.2,
         model=transposition,

@@ -125,7 +125,9 @@ def sun_and_plane(weather: Weather, mounting: Mounting) -> dict[str, np.ndarray]
         tilt = np.nan_to_num(np.asarray(tr["surface_tilt"], float), nan=0.0)
         saz = np.nan_to_num(np.asarray(tr["surface_azimuth"], float), nan=180.0)
     aoi = np.asarray(pvlib.irradiance.aoi(tilt, saz, app, azi), float)
-    dni_extra = np.asarray(pvlib.irradiance.get_extra_radiation(weather.times), float)
+    dni_extra = np.asarray(
+        pvlib.irradiance.get_extra_radiation(weather.times.day_of_year.to_numpy()), float
+    )
     return {
         "apparent_zenith_deg": app,
         "zenith_deg": zen,

@@ -178,7 +178,8 @@ def read_epw(
     Returns
     -------
     Weather
-        Times at the interval centres (label - 30 min). EPW missing-value codes
+        Times at the interval centres (EPW labels the end of each hour; pvlib's index
+        holds its start, so the centre is that + 30 min). EPW missing-value codes
         (precipitable water 999, aerosol optical depth 0.999, albedo 999) become NaN.
     """
     import pvlib
@@ -204,6 +205,13 @@ def read_epw(
     )
     pw = df["precipitable_water"].to_numpy(float).copy()
     pw[(pw >= 999) | (pw < 0)] = np.nan
+    # pvlib documents the field in cm; the EnergyPlus definition is mm (from memory) and
+    # files of both kinds exist. A column cannot exceed about 7 cm on Earth, so values
+    # above 15 can only be mm.
+    pw_unit = "cm"
+    if np.nanmax(pw, initial=0.0) > 15.0:
+        pw = pw / 10.0
+        pw_unit = "mm (converted to cm: values above 15 cannot be cm)"
     data = {
         "ghi_W_m2": df["ghi"].to_numpy(float),
         "dni_W_m2": df["dni"].to_numpy(float),
@@ -218,10 +226,12 @@ def read_epw(
     }
     notes = {
         "weather_format": "EPW (pvlib.iotools.read_epw)",
-        "time_labels": "end of hour; sun position at the middle of each hour",
+        "time_labels": "EPW hour h is (h-1, h]; sun position at the middle of each hour",
         "typical_year": f"re-stamped to {TYPICAL_YEAR}",
+        "epw_precipitable_water_unit": pw_unit,
     }
-    return Weather(df.index - pd.Timedelta(minutes=30), loc, data, 1.0, f"EPW file {p}", notes)
+    # EPW hour h covers (h-1, h]; pvlib stamps each row with the start, h-1
+    return Weather(df.index + pd.Timedelta(minutes=30), loc, data, 1.0, f"EPW file {p}", notes)
 
 
 def read_weather_csv(
