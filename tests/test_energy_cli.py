@@ -129,3 +129,17 @@ def test_epw_reader_agrees_with_tmy3(tmp_path):
     ):
         np.testing.assert_allclose(e[k][order], t[k], rtol=1e-9, err_msg=k)
     assert np.isnan(e["aod_broadband"]).all() and np.isnan(e["albedo"]).all()
+
+
+def test_measured_spectra_option(tmp_path, am15g, capsys):
+    wl = am15g.wavelength_nm[::10]
+    irr = am15g.spectral_irradiance_nm(wl)
+    head = "timestamp,temp_air_C," + ",".join(f"{x:g}" for x in wl)
+    rows = [f"2021-06-01T{h:02d}:30:00Z,20," + ",".join(f"{v:.6g}" for v in irr) for h in range(8)]
+    p = tmp_path / "s.csv"
+    p.write_text(head + "\n" + "\n".join(rows) + "\n")
+    args = _parser().parse_args(["yield", "--gaps", "1.7", "1.1", "--spectra", str(p), "--json"])
+    assert cli_energy.run(args) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["hours"] == 8
+    assert out["poa_irradiation_kWh_m2"] == pytest.approx(8 * np.trapezoid(irr, wl) / 1000)

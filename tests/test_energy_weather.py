@@ -128,3 +128,34 @@ def test_plain_csv_errors(tmp_path):
         read_weather(tmp_path / "nothing.csv")
     with pytest.raises(InputError, match="latitude_deg"):
         Location(95.0, 0.0)
+
+
+def test_measured_spectra_csv(tmp_path, am15g):
+    """A wide CSV of measured spectra whose every row is AM1.5G: the in-plane irradiance
+    is the G173 integral, and the yield equals the AM1.5G efficiency (as the constant-
+    conditions closure of the engine)."""
+    from gapmatch.energy.api import yield_from_spectra
+    from gapmatch.energy.celltemp import CellTemperature
+    from gapmatch.energy.readers import read_spectra_csv
+
+    wl = am15g.wavelength_nm
+    head = "timestamp," + ",".join(f"{x:g}" for x in wl)
+    rows = [
+        f"2021-06-01T{h:02d}:00:00+02:00,"
+        + ",".join(repr(float(v)) for v in am15g.irradiance_W_m2_nm)
+        for h in range(6, 12)
+    ]
+    p = tmp_path / "spectra.csv"
+    p.write_text(head + "\n" + "\n".join(rows) + "\n")
+    hs = read_spectra_csv(p)
+    assert hs.hours == 6 and hs.interval_h == pytest.approx(1.0)
+    np.testing.assert_allclose(hs.poa_W_m2, am15g.total_irradiance_W_m2, rtol=1e-12)
+    assert "temp_air_C" in hs.assumptions["defaults"]
+    r = yield_from_spectra(hs, [1.73, 1.12], cell_temperature=CellTemperature("fixed"))
+    assert r.energy_efficiency("series")[0] == pytest.approx(
+        r.reference_efficiency["series"][0], rel=1e-9
+    )
+    bad = tmp_path / "bad.csv"
+    bad.write_text("timestamp,350,abc\n2021-06-01T00:00:00Z,1,2\n2021-06-01T01:00:00Z,1,2\n")
+    with pytest.raises(InputError, match="wavelengths"):
+        read_spectra_csv(bad)

@@ -50,6 +50,13 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         "--weather-format", choices=WEATHER_FORMATS, help="force the reader (default: detect)"
     )
     p.add_argument(
+        "--spectra",
+        metavar="PATH",
+        help="measured in-plane spectra instead of the model: wide CSV (timestamp, then one "
+        "column per wavelength in nm, W m^-2 nm^-1; optional temp_air_C, wind_speed_m_s); "
+        "--weather and the site options are then unused",
+    )
+    p.add_argument(
         "--gaps",
         type=float,
         nargs="+",
@@ -149,6 +156,19 @@ def run(args: argparse.Namespace) -> int:
     from ..io.atomic import write_atomic
 
     weather = demo_weather_path() if args.weather == "demo" else args.weather
+    if args.spectra:
+        from ..energy import CellTemperature, read_spectra_csv, yield_from_spectra
+
+        ct = CellTemperature(args.temperature_model, args.mounting, fixed_K=args.cell_temperature)
+        r = yield_from_spectra(
+            read_spectra_csv(args.spectra),
+            args.gaps,
+            args.connection,
+            cell_temperature=ct,
+            ere=args.ere,
+            dark_current=args.dark_current,
+        )
+        return _print(r, args, write_atomic)
     r = annual_yield(
         weather,
         args.gaps,
@@ -168,6 +188,10 @@ def run(args: argparse.Namespace) -> int:
         ere=args.ere,
         dark_current=args.dark_current,
     )
+    return _print(r, args, write_atomic)
+
+
+def _print(r, args, write_atomic) -> int:
     if args.monthly_csv:
         write_atomic(args.monthly_csv, r.monthly_frame().to_csv(index=False))
     s = r.summary(0, args.connection)
@@ -175,10 +199,13 @@ def run(args: argparse.Namespace) -> int:
         print(json.dumps(s, indent=2, default=str))
         return 0
     site = s["site"]
-    print(
-        f"Site: {site.get('name') or '(unnamed)'} ({site['latitude_deg']:.2f}, "
-        f"{site['longitude_deg']:.2f}), {site['mounting']}; {s['hours']} daylight hours"
-    )
+    if "latitude_deg" in site:
+        print(
+            f"Site: {site.get('name') or '(unnamed)'} ({site['latitude_deg']:.2f}, "
+            f"{site['longitude_deg']:.2f}), {site['mounting']}; {s['hours']} daylight hours"
+        )
+    else:
+        print(f"Measured spectra: {s['hours']} intervals")
     print(f"Stack: {' / '.join(f'{x:g}' for x in s['gaps_eV'])} eV, {s['connection']}")
     print(f"  in-plane irradiation    {s['poa_irradiation_kWh_m2']:9.1f} kWh m^-2 yr^-1")
     print(f"  annual energy           {s['annual_energy_kWh_m2']:9.1f} kWh m^-2 yr^-1")

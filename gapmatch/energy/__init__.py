@@ -11,7 +11,7 @@ from __future__ import annotations
 from .api import annual_yield, site_spectra, yield_from_spectra
 from .celltemp import CellTemperature
 from .geometry import Mounting
-from .readers import demo_weather_path, read_weather
+from .readers import demo_weather_path, read_spectra_csv, read_weather
 from .result import YIELD_CAUTION, YieldResult
 from .spectra import HourlySpectra
 from .weather import Location, Weather
@@ -21,6 +21,7 @@ __all__ = [
     "site_spectra",
     "yield_from_spectra",
     "read_weather",
+    "read_spectra_csv",
     "demo_weather_path",
     "Weather",
     "Location",

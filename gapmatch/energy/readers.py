@@ -23,6 +23,12 @@ column                     unit         notes
 ``albedo``                 1            optional ground albedo
 =========================  ===========  =====================================
 
+Measured in-plane spectra (no spectral model) come as a *wide* CSV read by
+:func:`read_spectra_csv`: a ``timestamp`` column, then one column per wavelength whose
+header is the wavelength in nm (e.g. ``350``, ``352.5``; strictly increasing) holding the
+in-plane spectral irradiance [W m^-2 nm^-1], and optionally ``temp_air_C`` and
+``wind_speed_m_s`` for the cell temperature (default 25 deg C and 1 m s^-1, recorded).
+
 References
 ----------
 .. [1] S. Wilcox and W. Marion, "Users Manual for TMY3 Data Sets", NREL/TP-581-43156
@@ -48,6 +54,7 @@ __all__ = [
     "read_tmy3",
     "read_epw",
     "read_weather_csv",
+    "read_spectra_csv",
     "demo_weather_path",
 ]
 
@@ -373,3 +380,119 @@ def read_weather(
     if fmt == "csv":
         return read_weather_csv(p, tz=tz, label=label, **loc)
     raise InputError("format", f"must be one of {', '.join(WEATHER_FORMATS)}", format)
+
+
+def read_spectra_csv(
+    path: str | Path,
+    *,
+    tz: str | None = None,
+    label: str = "centre",
+):
+    """Read measured in-plane spectra from the wide CSV documented in this module.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The CSV file.
+    tz : str, optional
+        Time zone of naive timestamps.
+    label : {"end", "start", "centre"}
+        Which instant of its interval each timestamp names (spectroradiometer scans are
+        usually stamped at their time: ``centre``).
+
+    Returns
+    -------
+    gapmatch.energy.spectra.HourlySpectra
+        One row per timestamp with irradiance above zero; interval from the median
+        spacing of the timestamps.
+    """
+    from .spectra import HourlySpectra, trapezoid_W_m2
+
+    p = Path(path)
+    if label not in ("end", "start", "centre"):
+        raise InputError("label", "must be one of end, start, centre", label)
+    try:
+        df = pd.read_csv(p, comment="#", skipinitialspace=True)
+    except FileNotFoundError:
+        raise InputError("spectra", "file not found", str(p)) from None
+    except Exception as exc:
+        raise InputError("spectra", f"not a readable CSV file ({exc})", str(p)) from None
+    df.columns = [str(c).strip() for c in df.columns]
+    if "timestamp" not in df.columns:
+        raise InputError(f"spectra file {p}", "needs a timestamp column")
+    extra = {"temp_air_C", "wind_speed_m_s"}
+    wl_cols = [c for c in df.columns if c != "timestamp" and c not in extra]
+    try:
+        wl = np.array([float(c) for c in wl_cols])
+    except ValueError:
+        bad = next(c for c in wl_cols if not c.replace(".", "", 1).isdigit())
+        raise InputError(
+            f"spectra file {p}",
+            "column headers after timestamp must be wavelengths in nm "
+            "(or temp_air_C, wind_speed_m_s)",
+            bad,
+        ) from None
+    if wl.size < 2 or np.any(np.diff(wl) <= 0) or np.any(wl <= 0):
+        raise InputError(
+            f"spectra file {p}", "needs at least two strictly increasing wavelengths > 0 nm"
+        )
+    try:
+        irr = df[wl_cols].apply(pd.to_numeric).to_numpy(float)
+    except (ValueError, TypeError):
+        raise InputError(f"spectra file {p}", "spectral irradiance must be numbers") from None
+    if not np.all(np.isfinite(irr)) or np.any(irr < 0):
+        row = int(np.argmax(~np.isfinite(irr).all(axis=1) | (irr < 0).any(axis=1)))
+        raise InputError(
+            f"spectra file {p}",
+            f"spectral irradiance must be finite and >= 0 W m^-2 nm^-1; data row {row + 1} is not",
+        )
+    try:
+        times = pd.DatetimeIndex(pd.to_datetime(df["timestamp"], format="ISO8601"))
+    except (ValueError, TypeError) as exc:
+        raise InputError(f"spectra file {p}.timestamp", f"not ISO 8601 ({exc})") from None
+    if times.tz is None:
+        if tz is None:
+            raise InputError(
+                f"spectra file {p}.timestamp",
+                "timestamps have no UTC offset; add one or give the time zone (tz)",
+            )
+        times = times.tz_localize(tz)
+    if len(times) < 2 or not times.is_monotonic_increasing:
+        raise InputError(f"spectra file {p}", "needs at least two rows in time order")
+    step = pd.Series(times).diff().dropna().median()
+    shift = {"end": -0.5, "start": 0.5, "centre": 0.0}[label] * step
+    n = len(times)
+    notes = {}
+    ta = np.full(n, 25.0)
+    ws = np.full(n, 1.0)
+    if "temp_air_C" in df:
+        ta = pd.to_numeric(df["temp_air_C"]).to_numpy(float)
+    else:
+        notes["temp_air_C"] = "25 deg C (stated default: the file has none)"
+    if "wind_speed_m_s" in df:
+        ws = pd.to_numeric(df["wind_speed_m_s"]).to_numpy(float)
+    else:
+        notes["wind_speed_m_s"] = "1 m s^-1 (stated default: the file has none)"
+    total = trapezoid_W_m2(wl, irr)
+    keep = total > 0
+    zero = np.zeros(int(keep.sum()))
+    return HourlySpectra(
+        (times + shift)[keep],
+        wl,
+        irr[keep],
+        float(step / pd.Timedelta(hours=1)),
+        np.ones(int(keep.sum())),
+        {
+            "poa_direct": zero,
+            "poa_sky_diffuse": zero,
+            "poa_ground_diffuse": zero,
+            "poa_global": total[keep],
+        },
+        ta[keep],
+        ws[keep],
+        {
+            "spectra": f"measured in-plane spectra from {p} (no spectral model)",
+            "rows_without_light": int((~keep).sum()),
+            "defaults": notes,
+        },
+    )
