@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
 
 from ..core.connections import CONNECTIONS
 
@@ -167,6 +168,7 @@ def run(args: argparse.Namespace) -> int:
             cell_temperature=ct,
             ere=args.ere,
             dark_current=args.dark_current,
+            progress=sys.stderr.isatty(),
         )
         return _print(r, args, write_atomic)
     r = annual_yield(
@@ -187,6 +189,7 @@ def run(args: argparse.Namespace) -> int:
         weather_format=args.weather_format,
         ere=args.ere,
         dark_current=args.dark_current,
+        progress=sys.stderr.isatty(),
     )
     return _print(r, args, write_atomic)
 

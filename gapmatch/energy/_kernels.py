@@ -17,19 +17,16 @@ References
 
 from __future__ import annotations
 
+import importlib.util
 import math
 
 import numpy as np
 
 from ..core.solvers import XTOL_REL
 
-try:  # pragma: no cover - exercised when numba is installed (declared dependency)
-    import numba
-
-    HAVE_NUMBA = True
-except ImportError:  # pragma: no cover
-    numba = None
-    HAVE_NUMBA = False
+#: whether numba is installed (it is imported on first use, not with gapmatch)
+HAVE_NUMBA = importlib.util.find_spec("numba") is not None
+numba = None  # the module, bound by _get() before anything is compiled
 
 __all__ = ["HAVE_NUMBA", "series_mpp_rows", "series_power_table"]
 
@@ -274,8 +271,11 @@ _compiled: dict = {}
 
 def _get(name):
     """Compile a kernel on first use (cached on disk by numba between runs)."""
-    global _row_c, _string_voltage_c, _log_string_c
+    global numba, _row_c, _string_voltage_c, _log_string_c
     if not _compiled:
+        import numba as _numba
+
+        numba = _numba
         _log_string_c = numba.njit(cache=True)(_log_string)
         _string_voltage_c = numba.njit(cache=True)(_string_voltage)
         _row_c = numba.njit(cache=True)(_row)
