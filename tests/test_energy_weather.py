@@ -7,6 +7,8 @@ ships (NREL open data).
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pvlib
@@ -159,3 +161,22 @@ def test_measured_spectra_csv(tmp_path, am15g):
     bad.write_text("timestamp,350,abc\n2021-06-01T00:00:00Z,1,2\n2021-06-01T01:00:00Z,1,2\n")
     with pytest.raises(InputError, match="wavelengths"):
         read_spectra_csv(bad)
+
+
+def test_tmy2_reader_units_and_aod():
+    """pvlib's Miami TMY2 sample (NREL open data): tenths of deg C / m s^-1, mm of water
+    and thousandths of AOD converted; its AOD feeds the turbidity instead of the default."""
+    from gapmatch.energy.spectra import hourly_spectra
+
+    p = Path(pvlib.__file__).parent / "data" / "12839.tm2"
+    raw, _ = pvlib.iotools.read_tmy2(str(p))
+    w = read_weather(p)
+    assert w.hours == 8760 and w.location.latitude_deg == pytest.approx(25.8)
+    assert np.nanmax(w["temp_air_C"]) == pytest.approx(raw["DryBulb"].max() / 10)
+    assert np.nanmean(w["aod_broadband"]) == pytest.approx(raw["AOD"].mean() / 1000)
+    assert w.times.is_monotonic_increasing
+    assert (w.times.minute == 30).all()
+    hs = hourly_spectra(w, Mounting(25.0, 180.0))
+    d = hs.assumptions["defaults"]
+    assert "aerosol_turbidity_500nm" not in d
+    assert d["aerosol_turbidity_500nm_from_broadband"]["hours"] == hs.hours

@@ -1,4 +1,4 @@
-"""Weather files in: TMY3 and EPW through pvlib's readers, and a plain documented CSV.
+"""Weather files in: TMY3, TMY2 and EPW through pvlib's readers, and a plain documented CSV.
 
 Every reader returns a validated :class:`gapmatch.energy.weather.Weather` whose times
 are the *centres* of the intervals: TMY3 and EPW label each hour by its end (the row
@@ -52,13 +52,14 @@ __all__ = [
     "WEATHER_FORMATS",
     "read_weather",
     "read_tmy3",
+    "read_tmy2",
     "read_epw",
     "read_weather_csv",
     "read_spectra_csv",
     "demo_weather_path",
 ]
 
-WEATHER_FORMATS = ("tmy3", "epw", "csv")
+WEATHER_FORMATS = ("tmy3", "tmy2", "epw", "csv")
 _CSV_REQUIRED = ("ghi_W_m2", "dni_W_m2", "dhi_W_m2", "temp_air_C", "wind_speed_m_s")
 #: the year every typical-year file is re-stamped to (a non-leap year), so that the
 #: months taken from different years form one continuous year
@@ -164,6 +165,77 @@ def read_tmy3(
         "typical_year": f"months re-stamped to {TYPICAL_YEAR}",
     }
     return Weather(df.index - pd.Timedelta(minutes=30), loc, data, 1.0, f"TMY3 file {p}", notes)
+
+
+def read_tmy2(
+    path: str | Path,
+    *,
+    latitude: float | None = None,
+    longitude: float | None = None,
+    altitude_m: float | None = None,
+) -> Weather:
+    """Read a TMY2 file (NREL's typical meteorological year, version 2).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The TMY2 file (fixed-width text, ``.tm2``).
+    latitude, longitude, altitude_m : float, optional
+        Override the file's location [deg, deg, m].
+
+    Returns
+    -------
+    Weather
+        Times at the interval centres (TMY2 hour h covers (h-1, h]; pvlib stamps the
+        row with its start, so the centre is that + 30 min), re-stamped to one year.
+        The file's tenths of deg C and of m s^-1, mm of water and thousandths of AOD
+        are converted to the units of the names.
+
+    References
+    ----------
+    .. [1] W. Marion and K. Urban, "User's Manual for TMY2s", NREL (1995).
+    """
+    import pvlib
+
+    p = Path(path)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            df, meta = pvlib.iotools.read_tmy2(str(p))
+    except FileNotFoundError:
+        raise InputError("weather", "file not found", str(p)) from None
+    except Exception as exc:
+        raise InputError("weather", f"not a readable TMY2 file ({exc})", str(p)) from None
+    idx = pd.DatetimeIndex([t.replace(year=TYPICAL_YEAR) for t in df.index], tz=df.index.tz)
+    order = np.argsort(idx.asi8, kind="stable")
+    df = df.iloc[order]
+    idx = idx[order]
+    loc = _location(
+        meta.get("latitude"),
+        meta.get("longitude"),
+        meta.get("altitude"),
+        str(meta.get("City", "")),
+        latitude,
+        longitude,
+        altitude_m,
+    )
+    data = {
+        "ghi_W_m2": df["GHI"].to_numpy(float),
+        "dni_W_m2": df["DNI"].to_numpy(float),
+        "dhi_W_m2": df["DHI"].to_numpy(float),
+        "temp_air_C": df["DryBulb"].to_numpy(float) / 10.0,
+        "wind_speed_m_s": df["Wspd"].to_numpy(float) / 10.0,
+        "pressure_Pa": df["Pressure"].to_numpy(float) * 100.0,
+        "relative_humidity_pct": df["RHum"].to_numpy(float),
+        "precipitable_water_cm": _positive_or_nan(df["Pwat"]) / 10.0,
+        "aod_broadband": _positive_or_nan(df["AOD"]) / 1000.0,
+    }
+    notes = {
+        "weather_format": "TMY2 (pvlib.iotools.read_tmy2)",
+        "time_labels": "TMY2 hour h is (h-1, h]; sun position at the middle of each hour",
+        "typical_year": f"months re-stamped to {TYPICAL_YEAR}",
+    }
+    return Weather(idx + pd.Timedelta(minutes=30), loc, data, 1.0, f"TMY2 file {p}", notes)
 
 
 def read_epw(
@@ -347,9 +419,9 @@ def read_weather(
     ----------
     path : str or pathlib.Path
         Weather file.
-    format : {"tmy3", "epw", "csv"}, optional
-        Default: ``epw`` for ``.epw`` files, ``csv`` when the first line names a
-        ``timestamp`` column, ``tmy3`` otherwise.
+    format : {"tmy3", "tmy2", "epw", "csv"}, optional
+        Default: ``epw`` for ``.epw`` files, ``tmy2`` for ``.tm2`` files, ``csv`` when
+        the first line names a ``timestamp`` column, ``tmy3`` otherwise.
     latitude, longitude, altitude_m : float, optional
         Override the file's location [deg, deg, m] (required for the plain CSV).
     tz, label
@@ -366,6 +438,8 @@ def read_weather(
     if fmt is None:
         if p.suffix.lower() == ".epw":
             fmt = "epw"
+        elif p.suffix.lower() == ".tm2":
+            fmt = "tmy2"
         else:
             with open(p, encoding="utf-8", errors="replace") as fh:
                 first = fh.readline()
@@ -375,6 +449,8 @@ def read_weather(
     loc = dict(latitude=latitude, longitude=longitude, altitude_m=altitude_m)
     if fmt == "tmy3":
         return read_tmy3(p, **loc)
+    if fmt == "tmy2":
+        return read_tmy2(p, **loc)
     if fmt == "epw":
         return read_epw(p, **loc)
     if fmt == "csv":
