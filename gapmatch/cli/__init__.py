@@ -16,7 +16,7 @@ import sys
 from collections.abc import Sequence
 
 from ..errors import InputError
-from .commands import COMMANDS
+from .commands import COMMANDS, MODULES
 
 __all__ = ["COMMANDS", "build_parser", "main"]
 
@@ -63,7 +63,7 @@ def build_parser(argv: Sequence[str] | None = None) -> argparse.ArgumentParser:
     wanted = None if argv is None else _command_of(argv)
     for name, help_ in COMMANDS.items():
         if argv is None or name == wanted:
-            importlib.import_module(f"{__name__}.{name}").register(sub)
+            importlib.import_module(f"{__name__}.{MODULES.get(name, name)}").register(sub)
         else:
             sub.add_parser(name, help=help_, add_help=False)
     return parser

@@ -6,7 +6,7 @@ without importing any of them (each module imports the part of the package it dr
 
 from __future__ import annotations
 
-__all__ = ["COMMANDS"]
+__all__ = ["COMMANDS", "MODULES"]
 
 #: sub-command (also its module under gapmatch.cli) -> one-line help
 COMMANDS: dict[str, str] = {
@@ -14,7 +14,11 @@ COMMANDS: dict[str, str] = {
     "map": "efficiency map over a grid of two junctions' gaps",
     "optimise": "search the best band gaps of a 2-6 junction stack (detailed-balance limit)",
     "report": "run a TOML study file and write an HTML report with its data files",
+    "yield": "annual energy of a stack at a site (hourly spectra, cell temperatures)",
     "roadmap": "rank candidate stacks at each milestone of a material roadmap study",
     "materials": "list the materials library with the source of every number",
     "init": "write a commented starting study file from a template",
 }
+
+#: sub-commands whose module has another name (``yield`` is a Python keyword)
+MODULES: dict[str, str] = {"yield": "energy"}
