@@ -19,7 +19,7 @@ from gapmatch.study import load_study, parse_study
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "configs" / "demo.toml"
-NAME = "lindqvist-top-cell"
+NAME = "veltmora-top-cell"
 
 
 @pytest.fixture(scope="module")
@@ -103,7 +103,7 @@ def test_report_numbers_agree_with_engine(demo):
         s["map"]["connections"]["series"]["optimum"]["efficiency_pct"], abs=1e-4
     )
     stacks = pd.read_csv(out / f"{NAME}_stacks.csv")
-    row = stacks[(stacks["stack"] == "Cobaltine on Si") & (stacks["connection"] == "series")]
+    row = stacks[(stacks["stack"] == "Omrathene on Si") & (stacks["connection"] == "series")]
     ref = gm.evaluate([1.74, 1.12], "series").efficiency[0]
     assert row.efficiency_pct.iloc[0] == pytest.approx(100 * ref, rel=1e-5)  # CSV digits
     cut = pd.read_csv(out / f"{NAME}_cut.csv")

@@ -163,7 +163,7 @@ role = "top"
         encoding="utf-8",
     )
     assert main(["report", str(study), "--out-dir", str(out), "--quiet"]) == 0
-    page = out / "lindqvist-top-cell.html"
+    page = out / "veltmora-top-cell.html"
     dom = _dump_dom(chromium, page, out / "profile")
     p = _Figures()
     p.feed(dom)

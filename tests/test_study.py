@@ -31,7 +31,7 @@ def err(text: str) -> InputError:
 
 def test_demo_study_is_valid():
     st = load_study(DEMO)
-    assert st.name == "lindqvist-top-cell"
+    assert st.name == "veltmora-top-cell"
     assert st.sha256 == hashlib.sha256(DEMO.read_bytes()).hexdigest()
     assert st.connections == ["series", "independent"]
     assert st.cut["bottom_gap_eV"] == 1.12

@@ -12,12 +12,6 @@ from ..results import LOSS_LABELS
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
 
-DEMO_STACKS = {
-    # the fictional Lindqvist Photonics demo: candidate top cells on a 1.12 eV bottom cell
-    "demo": [[1.72, 1.12], [1.55, 1.12], [1.85, 1.12]],
-}
-
-
 def register(sub) -> None:
     p = sub.add_parser(
         "evaluate",

@@ -4,7 +4,7 @@ efficiency versus top-cell thickness.
 Study-file table ``[thickness]`` (all keys optional)::
 
     [thickness]
-    stack = "Aurelite-B at 1.68 eV on Si"   # a stack of interest; default the first
+    stack = "Vexaryn-B at 1.68 eV on Si"   # a stack of interest; default the first
     junction = 1                            # 1 = top cell
     connection = "series"
     absorber = "direct"                     # direct or indirect absorption edge

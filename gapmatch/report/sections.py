@@ -249,9 +249,8 @@ def materials_section(ctx: ReportContext) -> SectionOutput:
     return SectionOutput(
         [
             para(
-                "Materials as given in the study file (fictional demo data "
-                "where the study says so). They are drawn on the maps and the "
-                "one-dimensional cut."
+                "Materials as given in the study file. They are drawn on the maps "
+                "and the one-dimensional cut."
             ),
             table(["material", "band gap", "position", "note"], rows),
         ]

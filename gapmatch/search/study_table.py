@@ -7,7 +7,7 @@
     connection = "series"
     # one entry per junction, top first: a [[materials]] name (its fixed gap or tunable
     # window) or "any" (the window bounds_eV)
-    materials = ["any", "Halden silicon (bottom cell)"]
+    materials = ["any", "Our silicon bottom cell"]
     bounds_eV = [1.3, 2.3]
     min_spacing_eV = 0.05
     min_mismatch_ratio = 0.0      # 0: no current-mismatch constraint
