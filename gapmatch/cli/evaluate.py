@@ -12,6 +12,7 @@ from ..results import LOSS_LABELS
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
 
+
 def register(sub) -> None:
     p = sub.add_parser(
         "evaluate",
