@@ -48,6 +48,7 @@ ROOT = HERE.parent
 sys.path.insert(0, str(ROOT))
 
 import gapmatch as gm  # noqa: E402
+from gapmatch.core import kernels  # noqa: E402
 from gapmatch.core.diodes import ln_j0_radiative  # noqa: E402
 from gapmatch.core.engine import solve_stacks  # noqa: E402
 from gapmatch.core.planck import PLANCK_PREFACTOR  # noqa: E402
@@ -142,21 +143,19 @@ def _load(name: str):
 
 
 _COMPILE_SNIPPET = (
-    "import time; t = time.perf_counter();"
-    "from gapmatch.core import kernels;"
-    "ok = kernels.warm_up();"
+    "import time; import gapmatch; from gapmatch.core import connections, kernels;"
+    "t = time.perf_counter(); ok = kernels.warm_up();"
     "print(ok, time.perf_counter() - t)"
 )
 
 
 def compile_times() -> tuple[float, float] | None:
-    """First-compile and cached-load seconds of the compiled kernels (fresh processes).
+    """First-compile and cached-load seconds of the compiled kernels (fresh processes,
+    after ``import gapmatch``; numba's own import is included).
 
     Returns ``None`` when the compiled kernels are unavailable (numba missing or disabled).
     """
-    try:
-        from gapmatch.core import kernels  # noqa: F401
-    except ImportError:
+    if not kernels.available():
         return None
     out = []
     with tempfile.TemporaryDirectory() as cache:

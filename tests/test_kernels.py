@@ -29,6 +29,14 @@ from gapmatch.units import EV, K_B, Q
 
 needs_jit = pytest.mark.skipif(not kernels.available(), reason="numba not installed or disabled")
 
+
+@pytest.fixture(autouse=True, scope="module")
+def _kernels_for_small_batches():
+    # the kernels normally start at kernels.MIN_STACKS stacks; the tests use small batches
+    with kernels.min_stacks(0):
+        yield
+
+
 # Agreement of compiled and numpy paths: both stop at 1e-13 relative on the solution
 # variable and differ only in the rounding of log/exp/polylog; 1e-12 relative leaves a
 # factor 10 for that. Voltages that are zero in exact arithmetic (a junction carrying

@@ -33,6 +33,9 @@ from numba import njit
 from scipy import special
 
 _JIT = dict(cache=True, nogil=True, error_model="numpy")
+# small helpers called in the innermost loops: inlined by numba (saves the per-call
+# handling of their array arguments, which costs more than their arithmetic)
+_INLINE = dict(_JIT, inline="always")
 
 BOLTZMANN = 0
 BOSE_EINSTEIN = 1
@@ -107,18 +110,20 @@ def _omega_large(big_l):
 
 @njit(**_JIT)
 def wright_omega(y):
-    """Wright omega ``w + ln w = y`` to full precision (Newton from the asymptote)."""
+    """Wright omega ``w + ln w = y`` to full precision: Fritsch's fourth-order iteration
+    from the asymptotic start (two steps reach double precision for ``y >= 1``)."""
     if y > 1.0:
-        w = y - math.log(y)
+        ly = math.log(y)
+        w = y - ly + ly / y
     else:
         w = math.exp(y - 1.0)
-    for _ in range(60):
-        dw = (w + math.log(w) - y) / (1.0 + 1.0 / w)
-        wn = w - dw
-        if wn <= 0.0:
-            wn = 0.5 * w
-        w = wn
-        if abs(dw) <= 4e-16 * w:
+    for _ in range(8):
+        z = y - w - math.log(w)
+        w1 = 1.0 + w
+        q = 2.0 * w1 * (w1 + (2.0 / 3.0) * z)
+        eps = z / w1 * (q - z) / (q - 2.0 * z)
+        w = w * (1.0 + eps)
+        if abs(eps) <= 2e-16:
             break
     return w
 
@@ -126,14 +131,22 @@ def wright_omega(y):
 # ---------------------------------------------------------------------------------------
 # one junction: current and its voltage derivatives, voltage at a current
 # ---------------------------------------------------------------------------------------
-@njit(**_JIT)
+@njit(**_INLINE)
 def _iv(model, jph, vt, a, b, c, v):
     """``(J, dJ/dV, d2J/dV2)`` of one junction at voltage ``v``."""
     if model == BOLTZMANN:
         u = v / vt
         e = math.exp(u)
-        return jph - a * math.expm1(u), -a / vt * e, -a / (vt * vt) * e
-    x = a
+        em1 = e - 1.0 if u > 0.5 else math.expm1(u)  # no cancellation above u = 0.5
+        di = -a / vt * e
+        return jph - a * em1, di, di / vt
+    return _iv_bose(jph, vt, a, b, c, v)
+
+
+@njit(**_JIT)
+def _iv_bose(jph, vt, x, b, c, v):
+    """:func:`_iv` for the Bose-Einstein model (kept out of line: the Boltzmann branch
+    stays small enough to be inlined into the solvers)."""
     d = x - v / vt
     li1, li2, li3 = li123(d)
     t2 = x * x * li1 + 2.0 * x * li2 + 2.0 * li3
@@ -158,9 +171,13 @@ def _voltage(model, jph, vt, a, b, c, j0b, vup, j, v0):
         v = v0
     if v > vup:
         v = vup
+    x = a
     for _ in range(100):
-        cur, di, _d2 = _iv(model, jph, vt, a, b, c, v)
-        step = ((jph - cur) - target) / (-di)
+        d = x - v / vt
+        li1, li2, li3 = li123(d)
+        dark = b * (x * x * li1 + 2.0 * x * li2 + 2.0 * li3) - c
+        ddark = b / vt * (x * x / math.expm1(d) + 2.0 * (x * li1 + li2))
+        step = (dark - target) / ddark
         if not math.isfinite(step):
             step = 0.0
         v = v - step
@@ -310,6 +327,7 @@ def series(model, jph, vt, a, b, c, j0b, vup, xtol_rel, j_out, vj, jsc, voc):
     ``voc`` (M, N). The iteration is that of :func:`.connections.solve_series`."""
     m, n = jph.shape
     vw = np.empty(n)  # warm start of the Bose-Einstein inversions
+    dw = np.empty(n)  # dJ/dV there
     for i in range(m):
         lim = 0
         jmin = jph[i, 0]
@@ -354,10 +372,7 @@ def series(model, jph, vt, a, b, c, j0b, vup, xtol_rel, j_out, vj, jsc, voc):
                     for k in range(n):
                         v0 = vw[k]
                         if not math.isnan(v0):  # first-order predictor from the last step
-                            _c0, di0, _d0 = _iv(
-                                model, jph[i, k], vt[i, k], a[i, k], b[i, k], c[i, k], v0
-                            )
-                            v0 = v0 + (j - jprev) / di0
+                            v0 = v0 + (j - jprev) / dw[k]
                             if not math.isfinite(v0):
                                 v0 = math.nan
                         vk = _voltage(
@@ -374,6 +389,7 @@ def series(model, jph, vt, a, b, c, j0b, vup, xtol_rel, j_out, vj, jsc, voc):
                         )
                         vw[k] = vk
                         _c1, d1, d2 = _iv(model, jph[i, k], vt[i, k], a[i, k], b[i, k], c[i, k], vk)
+                        dw[k] = d1
                         s += vk
                         s1 += -1.0 / d1
                         s2 += d2 / (d1 * d1 * d1)
@@ -432,10 +448,38 @@ def series(model, jph, vt, a, b, c, j0b, vup, xtol_rel, j_out, vj, jsc, voc):
         jsc[i] = cur
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
+def _vm_eval_boltzmann(jph, vt, j0, i, r, v, gsat, mode):
+    """:func:`_vm_eval` for Boltzmann diodes (one exponential per junction)."""
+    n = r.size
+    g = 0.0
+    h = 0.0
+    jt = 0.0
+    for k in range(n):
+        rk = r[k]
+        vk = v / rk
+        u = vk / vt[i, k]
+        e = math.exp(u)
+        di = -j0[i, k] / vt[i, k] * e
+        if mode == 0:
+            em1 = e - 1.0 if u > 0.5 else math.expm1(u)
+            jt += (jph[i, k] - j0[i, k] * em1) / rk
+            h += di / (rk * rk)
+        else:
+            cur = jph[i, k] - j0[i, k] * (e - 1.0)
+            g += (cur + vk * di) / rk
+            h += (2.0 * di + vk * di / vt[i, k]) / (rk * rk)
+    if mode == 0:
+        return math.log(gsat) - math.log(gsat - jt), h / (gsat - jt)
+    return g, h
+
+
+@njit(**_INLINE)
 def _vm_eval(model, jph, vt, a, b, c, i, r, v, gsat, mode):
     """Voltage matching at string voltage ``v``: ``mode 0`` the open-circuit balance
     ``ln G - ln(G - J)`` and its derivative, ``mode 1`` dP/dV and d2P/dV2."""
+    if model == BOLTZMANN:
+        return _vm_eval_boltzmann(jph, vt, a, i, r, v, gsat, mode)
     n = r.size
     g = 0.0
     h = 0.0
@@ -455,7 +499,7 @@ def _vm_eval(model, jph, vt, a, b, c, i, r, v, gsat, mode):
     return g, h
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def _vm_maximise(model, jph, vt, a, b, c, i, r, gsat, mode, lo, hi, x0):
     """Scalar :func:`.solvers.maximise_concave` on the voltage-matching functions."""
     scale = max(hi - lo, 1e-300)
@@ -477,7 +521,7 @@ def _vm_maximise(model, jph, vt, a, b, c, i, r, gsat, mode, lo, hi, x0):
     return x
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r):
     """One stack, one ratio: ``(string voltage at maximum power, string V_oc)``."""
     n = r.size
@@ -504,7 +548,7 @@ def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r):
     return v, voc
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def _vm_power(model, jph, vt, a, b, c, i, r, v):
     p = 0.0
     for k in range(r.size):
@@ -535,9 +579,10 @@ def best_ratio(model, jph, vt, a, b, c, vup, vocj, vm, jm, cand, prune, best_k, 
     m, n = jph.shape
     kc = cand.shape[0]
     ub = np.empty(kc)
+    work = np.empty((4, n))
     for i in range(m):
         if prune:
-            _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub)
+            _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub, work)
             first = 0
             for q in range(1, kc):
                 if ub[q] > ub[first]:
@@ -569,8 +614,8 @@ def best_ratio(model, jph, vt, a, b, c, vup, vocj, vm, jm, cand, prune, best_k, 
         voc_out[i] = bvoc
 
 
-@njit(**_JIT)
-def _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub):
+@njit(**_INLINE)
+def _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub, work):
     """Upper bounds on the voltage-matched power of stack ``i`` for every candidate.
 
     Junction ``k``'s power ``p_k(v) = v J_k(v)`` is concave in ``v >= 0``, so each of its
@@ -582,10 +627,10 @@ def _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub):
     """
     n = jph.shape[1]
     kc = cand.shape[0]
-    pmax = np.empty(n)
-    slope = np.empty(n)
-    c1 = np.empty(n)
-    c2 = np.empty(n)
+    pmax = work[0]
+    slope = work[1]
+    c1 = work[2]
+    c2 = work[3]
     for k in range(n):
         pmax[k] = vm[i, k] * jm[i, k]
         voc = vocj[i, k]
@@ -598,8 +643,10 @@ def _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub):
         for k in range(n):
             for corner in (c1[k], c2[k]):
                 vs = cand[q, k] * corner
-                s = 0.0
+                s = pmax[k]  # junction k's own envelope at its own corner (c1 <= v_mpp <= c2)
                 for kk in range(n):
+                    if kk == k:
+                        continue
                     vk = vs / cand[q, kk]
                     s += min(vk * jph[i, kk], pmax[kk], slope[kk] * (vocj[i, kk] - vk))
                 if math.isnan(s):  # never prune on a NaN bound

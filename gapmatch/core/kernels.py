@@ -5,12 +5,15 @@ parameters, they run the compiled kernel of :mod:`._jit` (numba) on them, otherw
 numpy code, which stays the reference: both implement the same iterations and agree to
 rounding (``tests/test_kernels.py`` checks 1e-12 relative on random batches).
 
-The kernels are used when numba can be imported and the environment variable
-``GAPMATCH_NO_JIT`` is unset (or ``0``), for the two ideal diode models
-(:class:`.diodes.BoltzmannDiodes`, :class:`.diodes.BoseEinsteinDiodes`). numba itself is
-imported on the first call, so commands that never solve a batch do not pay for it.
-Compiled code is cached on disk (numba's ``cache=True``, next to the module or in
-``NUMBA_CACHE_DIR``), so only the first run on a machine compiles.
+The kernels are used when numba can be imported, the environment variable
+``GAPMATCH_NO_JIT`` is unset (or ``0``), the diodes are one of the two ideal models
+(:class:`.diodes.BoltzmannDiodes`, :class:`.diodes.BoseEinsteinDiodes`) and the batch
+holds at least ``MIN_STACKS`` stacks (environment variable ``GAPMATCH_JIT_MIN_STACKS``,
+default 4096). The threshold exists because numba is imported, and the compiled code
+loaded, on the first call: about half a second once per process, more than numpy needs
+for a small batch. Compiled code is cached on disk (numba's ``cache=True``, next to the
+module or in ``NUMBA_CACHE_DIR``), so only the first run on a machine compiles (about
+10 s). Which path ran changes results only in the last digits (1e-13 relative).
 
 References
 ----------
@@ -26,9 +29,21 @@ from contextlib import contextmanager
 
 import numpy as np
 
-__all__ = ["available", "disabled", "for_diodes", "jit", "warm_up"]
+__all__ = ["MIN_STACKS", "available", "disabled", "min_stacks", "for_diodes", "jit", "warm_up"]
 
-_state = {"off": 0, "module": None, "checked": False, "ok": False}
+#: smallest batch (stacks) solved by the compiled kernels unless the environment says
+MIN_STACKS = 4096
+
+_state = {"off": 0, "module": None, "checked": False, "ok": False, "min": None}
+
+
+def _min_stacks() -> int:
+    if _state["min"] is not None:
+        return _state["min"]
+    try:
+        return int(os.environ.get("GAPMATCH_JIT_MIN_STACKS", MIN_STACKS))
+    except ValueError:
+        return MIN_STACKS
 
 
 def available() -> bool:
@@ -39,6 +54,17 @@ def available() -> bool:
         _state["checked"] = True
         _state["ok"] = importlib.util.find_spec("numba") is not None
     return _state["ok"]
+
+
+@contextmanager
+def min_stacks(n: int):
+    """Use the compiled kernels for batches of at least ``n`` stacks inside the block."""
+    old = _state["min"]
+    _state["min"] = int(n)
+    try:
+        yield
+    finally:
+        _state["min"] = old
 
 
 @contextmanager
@@ -64,7 +90,7 @@ def for_diodes(d):
     """Kernel parameters ``(model, jph, vt, a, b, c, j0b, vup)`` of a diode batch, or
     ``None`` when the numpy path must run (kernels unavailable or a diode class the
     kernels do not implement). Arrays are ``(M, N)``, Fortran order."""
-    if not available():
+    if not available() or d.jph.shape[0] < _min_stacks():
         return None
     from .diodes import BoltzmannDiodes, BoseEinsteinDiodes
 
@@ -94,14 +120,21 @@ def warm_up() -> bool:
     passes; returns whether the kernels are available."""
     if not available():
         return False
-    from .connections import best_ratio_voltage_matched, solve_independent, solve_series
+    from .connections import (
+        best_ratio_voltage_matched,
+        solve_independent,
+        solve_series,
+        solve_voltage_matched,
+    )
     from .diodes import make_diodes
 
     gaps = np.array([[1.8, 1.1], [1.6, 0.9]]) * 1.602176634e-19
     jph = np.array([[150.0, 160.0], [200.0, 120.0]])
-    for model in ("boltzmann", "bose-einstein"):
-        d = make_diodes(model, jph, gaps, 300.0, 1.0, 1.0)
-        solve_series(d)
-        solve_independent(d)
-        best_ratio_voltage_matched(d)
+    with min_stacks(0):
+        for model in ("boltzmann", "bose-einstein"):
+            d = make_diodes(model, jph, gaps, 300.0, 1.0, 1.0)
+            solve_series(d)
+            solve_independent(d)
+            best_ratio_voltage_matched(d)
+            solve_voltage_matched(d, np.array([1, 2]))
     return True
