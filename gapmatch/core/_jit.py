@@ -183,7 +183,10 @@ def _voltage(model, jph, vt, a, b, c, j0b, vup, j, v0):
         v = v - step
         if v > vup:
             v = vup
-        if abs(step) <= 1e-14 * max(abs(v), vt):
+        # stop when the step is below the tolerance, or when the next step would be:
+        # Newton's error after a step is about step^2 |f''/f'| / 2 with |f''/f'| below
+        # about 1 / (vt min(d, 1)) for this dark current, here < 5e-16 vt
+        if abs(step) <= 1e-14 * max(abs(v), vt) or abs(step) <= 3e-8 * vt * math.sqrt(min(d, 1.0)):
             break
     return v
 
@@ -449,37 +452,39 @@ def series(model, jph, vt, a, b, c, j0b, vup, xtol_rel, j_out, vj, jsc, voc):
 
 
 @njit(**_INLINE)
-def _vm_eval_boltzmann(jph, vt, j0, i, r, v, gsat, mode):
-    """:func:`_vm_eval` for Boltzmann diodes (one exponential per junction)."""
-    n = r.size
+def _vm_eval_boltzmann(jph, j0, i, w, v, gsat, mode):
+    """:func:`_vm_eval` for Boltzmann diodes: one exponential and no division per
+    junction, with ``w = (1/r, 1/(r V_t), J0/V_t, 1/V_t)`` per junction (from
+    :func:`_vm_one`)."""
+    n = w.shape[1]
     g = 0.0
     h = 0.0
     jt = 0.0
     for k in range(n):
-        rk = r[k]
-        vk = v / rk
-        u = vk / vt[i, k]
+        ir = w[0, k]
+        u = v * w[1, k]
         e = math.exp(u)
-        di = -j0[i, k] / vt[i, k] * e
+        di = -w[2, k] * e
         if mode == 0:
             em1 = e - 1.0 if u > 0.5 else math.expm1(u)
-            jt += (jph[i, k] - j0[i, k] * em1) / rk
-            h += di / (rk * rk)
+            jt += (jph[i, k] - j0[i, k] * em1) * ir
+            h += di * ir * ir
         else:
+            vk = v * ir
             cur = jph[i, k] - j0[i, k] * (e - 1.0)
-            g += (cur + vk * di) / rk
-            h += (2.0 * di + vk * di / vt[i, k]) / (rk * rk)
+            g += (cur + vk * di) * ir
+            h += (2.0 * di + vk * di * w[3, k]) * ir * ir
     if mode == 0:
         return math.log(gsat) - math.log(gsat - jt), h / (gsat - jt)
     return g, h
 
 
 @njit(**_INLINE)
-def _vm_eval(model, jph, vt, a, b, c, i, r, v, gsat, mode):
+def _vm_eval(model, jph, vt, a, b, c, i, r, w, v, gsat, mode):
     """Voltage matching at string voltage ``v``: ``mode 0`` the open-circuit balance
     ``ln G - ln(G - J)`` and its derivative, ``mode 1`` dP/dV and d2P/dV2."""
     if model == BOLTZMANN:
-        return _vm_eval_boltzmann(jph, vt, a, i, r, v, gsat, mode)
+        return _vm_eval_boltzmann(jph, a, i, w, v, gsat, mode)
     n = r.size
     g = 0.0
     h = 0.0
@@ -500,12 +505,12 @@ def _vm_eval(model, jph, vt, a, b, c, i, r, v, gsat, mode):
 
 
 @njit(**_INLINE)
-def _vm_maximise(model, jph, vt, a, b, c, i, r, gsat, mode, lo, hi, x0):
+def _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, mode, lo, hi, x0):
     """Scalar :func:`.solvers.maximise_concave` on the voltage-matching functions."""
     scale = max(hi - lo, 1e-300)
     x = min(max(x0, lo), hi)
     for _ in range(200):
-        g, h = _vm_eval(model, jph, vt, a, b, c, i, r, x, gsat, mode)
+        g, h = _vm_eval(model, jph, vt, a, b, c, i, r, w, x, gsat, mode)
         if g > 0:
             lo = x
         else:
@@ -522,8 +527,9 @@ def _vm_maximise(model, jph, vt, a, b, c, i, r, gsat, mode, lo, hi, x0):
 
 
 @njit(**_INLINE)
-def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r):
-    """One stack, one ratio: ``(string voltage at maximum power, string V_oc)``."""
+def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w):
+    """One stack, one ratio: ``(string voltage at maximum power, string V_oc)``; ``w`` is
+    a ``(4, N)`` work array."""
     n = r.size
     vcap = math.inf
     hmax = -math.inf
@@ -541,10 +547,14 @@ def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r):
         wv += pw * rk * vm[i, k]
         jl = jph[i, k] + (a[i, k] if model == BOLTZMANN else c[i, k])
         gsat += jl / rk
+        w[0, k] = 1.0 / rk
+        w[1, k] = 1.0 / (rk * vt[i, k])
+        w[2, k] = a[i, k] / vt[i, k]
+        w[3, k] = 1.0 / vt[i, k]
     hi = min(hmax, vcap)
     x0 = wv / wsum if wsum > 0 else 0.0
-    voc = _vm_maximise(model, jph, vt, a, b, c, i, r, gsat, 0, lo_oc, hi, hi)
-    v = _vm_maximise(model, jph, vt, a, b, c, i, r, gsat, 1, 0.0, voc, min(max(x0, 0.0), voc))
+    voc = _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, 0, lo_oc, hi, hi)
+    v = _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, 1, 0.0, voc, min(max(x0, 0.0), voc))
     return v, voc
 
 
@@ -562,8 +572,9 @@ def _vm_power(model, jph, vt, a, b, c, i, r, v):
 def voltage_matched(model, jph, vt, a, b, c, vup, vocj, vm, jm, ratio, v_out, voc_out):
     """Voltage-matched strings with a given ratio per stack ``ratio`` (M, N)."""
     m, n = jph.shape
+    w = np.empty((4, n))
     for i in range(m):
-        v, voc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, ratio[i])
+        v, voc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, ratio[i], w)
         v_out[i] = v
         voc_out[i] = voc
 
@@ -580,6 +591,7 @@ def best_ratio(model, jph, vt, a, b, c, vup, vocj, vm, jm, cand, prune, best_k, 
     kc = cand.shape[0]
     ub = np.empty(kc)
     work = np.empty((4, n))
+    w = np.empty((4, n))
     for i in range(m):
         if prune:
             _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub, work)
@@ -599,7 +611,7 @@ def best_ratio(model, jph, vt, a, b, c, vup, vocj, vm, jm, cand, prune, best_k, 
                 continue
             if prune and t > 0 and ub[q] < best_p * (1.0 - 1e-9):
                 continue
-            v, voc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[q])
+            v, voc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[q], w)
             p = _vm_power(model, jph, vt, a, b, c, i, cand[q], v)
             if p > best_p or (p == best_p and q < bk):
                 best_p = p
@@ -608,7 +620,7 @@ def best_ratio(model, jph, vt, a, b, c, vup, vocj, vm, jm, cand, prune, best_k, 
                 bvoc = voc
         if bk < 0:
             bk = 0
-            bv, bvoc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[0])
+            bv, bvoc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[0], w)
         best_k[i] = bk
         v_out[i] = bv
         voc_out[i] = bvoc
