@@ -176,6 +176,29 @@ def compile_times() -> tuple[float, float] | None:
     return out[0], out[1]
 
 
+def profile_engine(gaps_j: np.ndarray, spectrum, repeats: int) -> None:
+    """Where the 1-thread engine's time goes, per stack (median of interleaved rounds)."""
+    from gapmatch.core.connections import solve_series
+    from gapmatch.core.diodes import make_diodes
+    from gapmatch.core.engine import step_photocurrents
+
+    chunk = gaps_j[:32768]  # the engine's work unit
+    g = np.asfortranarray(chunk)
+    jph = step_photocurrents(g, spectrum)
+    parts = {
+        "photocurrents (engine.step_photocurrents)": lambda: step_photocurrents(g, spectrum),
+        "diodes (diodes.make_diodes)": lambda: make_diodes("boltzmann", jph, g, 300.0, 1.0),
+        "series solve (connections.solve_series)": lambda: solve_series(
+            make_diodes("boltzmann", jph, g, 300.0, 1.0)
+        ),
+        "absorbed power (spectrum.power_above)": lambda: spectrum.power_above(g.min(axis=1)),
+        "whole engine call": lambda: solve_stacks(chunk, spectrum, "series", threads=1),
+    }
+    times = timed_rounds(parts, max(repeats, 5))
+    for name, ts in times.items():
+        print(f"profile: {name}: {statistics.median(ts) / chunk.shape[0] * 1e9:.0f} ns/stack")
+
+
 def timed_rounds(contenders: dict, repeats: int) -> dict[str, list[float]]:
     """Seconds per round for every contender, rounds interleaved."""
     times = {k: [] for k in contenders}
@@ -269,6 +292,8 @@ def main(argv=None) -> int:
         f"{rate['engine-all-threads'] / rate['engine-1-thread']:.2f}x; "
         f"reference-math / reference-numpy: {rate['reference-math'] / rate['reference-numpy']:.2f}x"
     )
+
+    profile_engine(gaps_j, spectrum, args.repeats)
 
     # second measured figure: a 201 x 201 two-junction map, series + independent
     t_map = _load("maps").measure()
