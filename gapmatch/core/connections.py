@@ -108,7 +108,7 @@ def solve_series(d, *, xtol_rel: float = XTOL_REL) -> OperatingPoint:
     iteration (the Bose-Einstein junction voltages warm-started from the previous
     iterate instead of inverted afresh).
     """
-    kp = kernels.for_diodes(d)
+    kp = kernels.for_diodes(d, "series")
     if kp is not None:
         return _series_kernel(d, kp, xtol_rel)
     jph = d.jph
@@ -174,7 +174,7 @@ def solve_independent(d) -> OperatingPoint:
         Stack-level voltage, current, ``V_oc`` and ``J_sc`` are NaN (no common
         terminals); ``ff`` is ``P / sum_i V_oc,i J_sc,i``.
     """
-    kp = kernels.for_diodes(d)
+    kp = kernels.for_diodes(d, "independent")
     v, j = _mpp_kernel(kp) if kp is not None else d.mpp()
     p = (v * j).sum(axis=1)
     nan = np.full(p.shape, np.nan)
@@ -277,7 +277,7 @@ def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
     maximum power point is then bracketed by ``[0, V_oc]``.
     """
     r = np.broadcast_to(np.asarray(ratio, dtype=float), d.jph.shape)
-    kp = kernels.for_diodes(d)
+    kp = kernels.for_diodes(d, "voltage-matched")
     if kp is not None:
         model, jph, vt, a, b, c, j0b, vup = kp
         vm, jm = _mpp_kernel(kp) if single is None else single
@@ -363,7 +363,7 @@ def best_ratio_voltage_matched(
         max_cells = AUTO_MAX_CELLS[n]
     cand = np.asarray(candidate_ratios(n, max_cells), dtype=float)
     k = cand.shape[0]
-    kp = kernels.for_diodes(d)
+    kp = kernels.for_diodes(d, "voltage-matched")
     if kp is not None:
         model, jph, vt, a, b, c, j0b, vup = kp
         vm, jm = _mpp_kernel(kp)

@@ -13,7 +13,9 @@ default 4096). The threshold exists because numba is imported, and the compiled 
 loaded, on the first call: about half a second once per process, more than numpy needs
 for a small batch. Compiled code is cached on disk (numba's ``cache=True``, next to the
 module or in ``NUMBA_CACHE_DIR``), so only the first run on a machine compiles (about
-10 s). Which path ran changes results only in the last digits (1e-13 relative).
+10 to 30 s). Which path ran changes results only in the last digits (1e-13 relative).
+Boltzmann series and independent stacks stay on numpy (``NUMPY_BY_DEFAULT``), which is
+as fast there.
 
 References
 ----------
@@ -29,12 +31,28 @@ from contextlib import contextmanager
 
 import numpy as np
 
-__all__ = ["MIN_STACKS", "available", "disabled", "min_stacks", "for_diodes", "jit", "warm_up"]
+__all__ = [
+    "MIN_STACKS",
+    "NUMPY_BY_DEFAULT",
+    "available",
+    "disabled",
+    "everywhere",
+    "min_stacks",
+    "for_diodes",
+    "jit",
+    "warm_up",
+]
 
 #: smallest batch (stacks) solved by the compiled kernels unless the environment says
 MIN_STACKS = 4096
 
-_state = {"off": 0, "module": None, "checked": False, "ok": False, "min": None}
+#: (diode model, connection) pairs left to numpy by default: measured on the 2-junction
+#: benchmark batch, numpy is as fast (series, ~400 ns/stack either way) or faster
+#: (independent: scipy's vectorised Wright omega, 160 vs 270 ns/stack), so the compiled
+#: kernel would only add numba's import to the process
+NUMPY_BY_DEFAULT = frozenset({("boltzmann", "series"), ("boltzmann", "independent")})
+
+_state = {"off": 0, "module": None, "checked": False, "ok": False, "min": None, "all": 0}
 
 
 def _min_stacks() -> int:
@@ -68,6 +86,18 @@ def min_stacks(n: int):
 
 
 @contextmanager
+def everywhere():
+    """Use the compiled kernels for every batch and every path inside the block (tests
+    comparing them with numpy)."""
+    _state["all"] += 1
+    try:
+        with min_stacks(0):
+            yield
+    finally:
+        _state["all"] -= 1
+
+
+@contextmanager
 def disabled():
     """Run the numpy reference path inside the ``with`` block (tests, comparisons)."""
     _state["off"] += 1
@@ -86,11 +116,14 @@ def jit():
     return _state["module"]
 
 
-def for_diodes(d):
-    """Kernel parameters ``(model, jph, vt, a, b, c, j0b, vup)`` of a diode batch, or
-    ``None`` when the numpy path must run (kernels unavailable or a diode class the
-    kernels do not implement). Arrays are ``(M, N)``, Fortran order."""
+def for_diodes(d, connection: str):
+    """Kernel parameters ``(model, jph, vt, a, b, c, j0b, vup)`` of a diode batch for a
+    connection, or ``None`` when the numpy path runs (kernels unavailable, batch below
+    the threshold, a diode class the kernels do not implement, or a path in
+    ``NUMPY_BY_DEFAULT``). Arrays are ``(M, N)``, Fortran order."""
     if not available() or d.jph.shape[0] < _min_stacks():
+        return None
+    if not _state["all"] and (getattr(d, "model", ""), connection) in NUMPY_BY_DEFAULT:
         return None
     from .diodes import BoltzmannDiodes, BoseEinsteinDiodes
 
@@ -130,7 +163,7 @@ def warm_up() -> bool:
 
     gaps = np.array([[1.8, 1.1], [1.6, 0.9]]) * 1.602176634e-19
     jph = np.array([[150.0, 160.0], [200.0, 120.0]])
-    with min_stacks(0):
+    with everywhere():
         for model in ("boltzmann", "bose-einstein"):
             d = make_diodes(model, jph, gaps, 300.0, 1.0, 1.0)
             solve_series(d)
