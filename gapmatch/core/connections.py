@@ -32,6 +32,7 @@ from itertools import product
 
 import numpy as np
 
+from . import kernels
 from .solvers import XTOL_REL, maximise_concave
 
 __all__ = [
@@ -43,6 +44,7 @@ __all__ = [
     "solve_voltage_matched",
     "candidate_ratios",
     "best_ratio_voltage_matched",
+    "vm_power_bounds",
     "solve_series_resistive",
     "solve_independent_resistive",
 ]
@@ -101,7 +103,14 @@ def solve_series(d, *, xtol_rel: float = XTOL_REL) -> OperatingPoint:
     Stacks leave the iteration as soon as they converge. ``J_sc`` is the current where
     the limiting junction's reverse voltage cancels the others' (one fixed-point step
     from ``J_min``, exact to first order in ``J0 / J_ph``).
+
+    With numba available the per-stack compiled kernel of :mod:`.kernels` runs the same
+    iteration (the Bose-Einstein junction voltages warm-started from the previous
+    iterate instead of inverted afresh).
     """
+    kp = kernels.for_diodes(d, "series")
+    if kp is not None:
+        return _series_kernel(d, kp, xtol_rel)
     jph = d.jph
     m = jph.shape[0]
     rows = np.arange(m)
@@ -165,11 +174,57 @@ def solve_independent(d) -> OperatingPoint:
         Stack-level voltage, current, ``V_oc`` and ``J_sc`` are NaN (no common
         terminals); ``ff`` is ``P / sum_i V_oc,i J_sc,i``.
     """
-    v, j = d.mpp()
+    kp = kernels.for_diodes(d, "independent")
+    v, j = _mpp_kernel(kp) if kp is not None else d.mpp()
     p = (v * j).sum(axis=1)
     nan = np.full(p.shape, np.nan)
     op = OperatingPoint(p, nan, nan, nan, nan, v, j)
     return op
+
+
+def _series_kernel(d, kp, xtol_rel) -> OperatingPoint:
+    model, jph, vt, a, b, c, j0b, vup = kp
+    m, n = jph.shape
+    j_out, jsc = np.empty(m), np.empty(m)
+    vj, voc = np.empty((m, n)), np.empty((m, n))
+    if model == 0:
+        kernels.jit().series_boltzmann(jph, vt, a, float(xtol_rel), j_out, vj, jsc, voc)
+    else:
+        kernels.jit().series(
+            model, jph, vt, a, b, c, j0b, vup, float(xtol_rel), j_out, vj, jsc, voc
+        )
+    d._voc = voc
+    v = vj.sum(axis=1)
+    jj = np.broadcast_to(j_out[:, None], vj.shape).copy()
+    return OperatingPoint(j_out * v, v, j_out, voc.sum(axis=1), jsc, vj, jj)
+
+
+def _mpp_kernel(kp):
+    """Each junction's own maximum power point ``(v, j)`` by the compiled kernel."""
+    model, jph, vt, a, b, c, j0b, vup = kp
+    v, j = np.empty(jph.shape), np.empty(jph.shape)
+    kernels.jit().independent(model, jph, vt, a, b, c, j0b, vup, v, j)
+    return v, j
+
+
+def _voc_kernel(d, kp):
+    """Each junction's open-circuit voltage [V], cached on the diodes."""
+    if d._voc is None:
+        model, jph, vt, a, b, c, j0b, vup = kp
+        voc = np.empty(jph.shape)
+        kernels.jit().open_circuit(model, jph, vt, a, b, c, j0b, vup, voc)
+        d._voc = voc
+    return d._voc
+
+
+def _vm_result(d, r, v, voc) -> OperatingPoint:
+    vk = v[:, None] / r
+    jk = d.current(vk)
+    p = (vk * jk).sum(axis=1)
+    jsc = (d.jph / r).sum(axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        j = np.where(v > 0, p / v, 0.0)
+    return OperatingPoint(p, v, j, voc, jsc, vk, jk, ratio=r.astype(int))
 
 
 def candidate_ratios(n_junctions: int, max_cells: int = 6) -> list[tuple[int, ...]]:
@@ -222,6 +277,28 @@ def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
     maximum power point is then bracketed by ``[0, V_oc]``.
     """
     r = np.broadcast_to(np.asarray(ratio, dtype=float), d.jph.shape)
+    kp = kernels.for_diodes(d, "voltage-matched")
+    if kp is not None:
+        model, jph, vt, a, b, c, j0b, vup = kp
+        vm, jm = _mpp_kernel(kp) if single is None else single
+        m = jph.shape[0]
+        v, voc = np.empty(m), np.empty(m)
+        kernels.jit().voltage_matched(
+            model,
+            jph,
+            vt,
+            a,
+            b,
+            c,
+            vup,
+            _voc_kernel(d, kp),
+            np.asfortranarray(vm),
+            np.asfortranarray(jm),
+            np.ascontiguousarray(r),
+            v,
+            voc,
+        )
+        return _vm_result(d, r, v, voc)
     voc_j = d.voc()
     vcap = np.min(r * d.v_upper(), axis=1)
     lo = np.zeros(d.jph.shape[0])
@@ -253,17 +330,11 @@ def solve_voltage_matched(d, ratio: np.ndarray, single=None) -> OperatingPoint:
         # Newton iteration out of the steep exponential regime of forward-biased strings
         voc = maximise_concave(log_balance, dlog_balance, np.min(r * voc_j, axis=1), hi, hi)
         v = maximise_concave(grad, hess, lo, voc, np.clip(x0, lo, voc))
-    vk = v[:, None] / r
-    jk = d.current(vk)
-    p = (vk * jk).sum(axis=1)
-    jsc = (d.jph / r).sum(axis=1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        j = np.where(v > 0, p / v, 0.0)
-    return OperatingPoint(p, v, j, voc, jsc, vk, jk, ratio=r.astype(int))
+    return _vm_result(d, r, v, voc)
 
 
 def best_ratio_voltage_matched(
-    d, max_cells: int | None = None, max_rows: int = 2**19
+    d, max_cells: int | None = None, max_rows: int = 2**19, *, prune: bool = True
 ) -> OperatingPoint:
     """Voltage matching with, per stack, the best string lengths up to ``max_cells``.
 
@@ -275,31 +346,111 @@ def best_ratio_voltage_matched(
         Largest number of cells in one string; default ``AUTO_MAX_CELLS[N]``.
     max_rows : int
         Largest number of (stack, candidate) pairs solved in one vectorised call.
+    prune : bool
+        Solve only the candidates whose upper bound on the power (see
+        :func:`vm_power_bounds`) reaches the best power found (within 1e-9 relative);
+        ``False`` solves every candidate. Both choose the same ratio: a pruned candidate
+        cannot reach the best power.
 
     Returns
     -------
     OperatingPoint
-        With ``ratio`` set to the chosen string lengths.
+        With ``ratio`` set to the chosen string lengths; ties go to the first candidate
+        of :func:`candidate_ratios`.
     """
     m, n = d.jph.shape
     if max_cells is None:
         max_cells = AUTO_MAX_CELLS[n]
     cand = np.asarray(candidate_ratios(n, max_cells), dtype=float)
     k = cand.shape[0]
+    kp = kernels.for_diodes(d, "voltage-matched")
+    if kp is not None:
+        model, jph, vt, a, b, c, j0b, vup = kp
+        vm, jm = _mpp_kernel(kp)
+        best_k = np.empty(m, dtype=np.int64)
+        v, voc = np.empty(m), np.empty(m)
+        kernels.jit().best_ratio(
+            model, jph, vt, a, b, c, vup, _voc_kernel(d, kp), vm, jm, cand, prune, best_k, v, voc
+        )
+        return _vm_result(d, cand[best_k], v, voc)
     single = d.mpp()
-    best_p = np.full(m, -np.inf)
     best_k = np.zeros(m, dtype=int)
     step = max(1, max_rows // k)
     for start in range(0, m, step):
         rows = np.arange(start, min(m, start + step))
-        rep = np.repeat(rows, k)
-        op = solve_voltage_matched(
-            d.take(rep), np.tile(cand, (rows.size, 1)), single=(single[0][rep], single[1][rep])
-        )
-        pk = op.p_mpp.reshape(rows.size, k)
+        sub = d.take(rows)
+        sub_single = (single[0][rows], single[1][rows])
+        if prune:
+            ub = vm_power_bounds(sub, cand, sub_single)
+            first = np.argmax(ub, axis=1)
+            p_first = solve_voltage_matched(sub, cand[first], single=sub_single).p_mpp
+            pk = np.full((rows.size, k), -np.inf)
+            pk[np.arange(rows.size), first] = p_first
+            keep = ~(ub < (p_first * (1.0 - 1e-9))[:, None])  # NaN bounds are kept
+            keep[np.arange(rows.size), first] = False
+            ri, qi = np.nonzero(keep)
+        else:
+            pk = np.empty((rows.size, k))
+            ri, qi = np.divmod(np.arange(rows.size * k), k)
+        for s0 in range(0, ri.size, max_rows):
+            r_sel, q_sel = ri[s0 : s0 + max_rows], qi[s0 : s0 + max_rows]
+            op = solve_voltage_matched(
+                sub.take(r_sel),
+                cand[q_sel],
+                single=(sub_single[0][r_sel], sub_single[1][r_sel]),
+            )
+            pk[r_sel, q_sel] = op.p_mpp
         best_k[rows] = np.argmax(pk, axis=1)
-        best_p[rows] = pk[np.arange(rows.size), best_k[rows]]
     return solve_voltage_matched(d, cand[best_k], single=single)
+
+
+def vm_power_bounds(d, cand: np.ndarray, single=None) -> np.ndarray:
+    """Upper bounds on the voltage-matched power of every stack for every ratio [W m^-2].
+
+    Parameters
+    ----------
+    d : BoltzmannDiodes or BoseEinsteinDiodes
+        Junction diodes, shape ``(M, N)``.
+    cand : numpy.ndarray
+        Candidate ratios, shape ``(K, N)``.
+    single : tuple of numpy.ndarray, optional
+        ``d.mpp()`` if already computed.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``(M, K)``: no string voltage gives candidate ``k`` more power than entry ``k``.
+
+    Notes
+    -----
+    Junction power ``p(v) = v J(v)`` is concave for ``v >= 0`` (``J' < 0``, ``J'' < 0``),
+    so its tangents bound it from above: ``v J_ph`` (at 0), ``p_max`` (at the maximum
+    power point) and ``s (V_oc - v)`` with ``s = -V_oc J'(V_oc)`` (at open circuit). The
+    string power ``sum_k p_k(V / r_k)`` is then at most the sum of these piecewise-linear
+    envelopes, a concave piecewise-linear function of ``V`` whose maximum lies at one of
+    the envelopes' corners ``V = r_k v_c``; only those are tried. A ratio whose string
+    voltages are spread far apart has a low bound, so the bound prunes by the spread of
+    the junctions' string voltages at their own maximum power points.
+    """
+    vm, jm = d.mpp() if single is None else single
+    voc = d.voc()
+    pmax = vm * jm
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        slope = -voc * d.dcurrent(voc)
+        c1 = np.where(d.jph > 0, pmax / d.jph, 0.0)
+        c2 = np.where(slope > 0, voc - pmax / slope, voc)
+        corners = np.concatenate([c1, c2], axis=1)  # (M, 2N)
+        out = np.empty((d.jph.shape[0], cand.shape[0]))
+        for q, r in enumerate(cand):
+            vs = corners * np.concatenate([r, r])  # string voltages (M, 2N)
+            vk = vs[:, :, None] / r  # junction voltages (M, 2N, N)
+            env = np.minimum(
+                np.minimum(vk * d.jph[:, None, :], pmax[:, None, :]),
+                slope[:, None, :] * (voc[:, None, :] - vk),
+            )
+            s = env.sum(axis=2)
+            out[:, q] = np.where(np.isnan(s), np.inf, s).max(axis=1)
+    return out
 
 
 def solve_series_resistive(d, r) -> OperatingPoint:

@@ -44,6 +44,8 @@ __all__ = [
 ]
 
 DARK_MODELS = ("boltzmann", "bose-einstein")
+#: smallest distance ``(E_g - qV) / kT`` to the gap evaluated by the Bose-Einstein model
+BE_D_MIN = 1e-10
 
 
 def ln_j0_radiative(gap_J, temperature_K, emission_factor=1.0) -> np.ndarray:  # noqa: N803
@@ -251,6 +253,7 @@ class BoseEinsteinDiodes:
         self.x = self.gap_J / self.kt
         self.scale = Q * PLANCK_PREFACTOR * self.emission_factor * self.kt**3 / self.ere
         self.jrad0 = self.scale * bose_tail(2, self.x, self.x)
+        self._voc = None
 
     def take(self, sel) -> BoseEinsteinDiodes:
         """Subset of junctions (any numpy index applied to every array)."""
@@ -297,8 +300,18 @@ class BoseEinsteinDiodes:
         return self.jph + self.jrad0
 
     def v_upper(self):
-        """Largest voltage [V] evaluated: the Bose-Einstein integral diverges at qV = E_g."""
-        return (self.gap_J - 1e-3 * self.kt) / Q
+        """Largest voltage [V] evaluated: the Bose-Einstein integral diverges at qV = E_g.
+
+        ``E_g/q - D_MIN kT/q`` with ``D_MIN = 1e-10``: the dark current there is finite
+        (``ln(1/D_MIN)`` times its Boltzmann scale), and a junction whose photocurrent
+        exceeds it is pinned at most ``2.6e-12 V`` (at 300 K) below its true ``V_oc``.
+        """
+        return self.vt * (self.x - BE_D_MIN)
+
+    def j0_boltzmann(self):
+        """Saturation current density [A m^-2] of the Boltzmann approximation of the
+        same junctions (start points of the iterations)."""
+        return self.scale * np.exp(-self.x) * (self.x**2 + 2 * self.x + 2)
 
     def voltage(self, j):
         """Voltage [V] at current density ``j`` [A m^-2], by monotone Newton iteration.
@@ -308,8 +321,7 @@ class BoseEinsteinDiodes:
         monotonically.
         """
         target = self.jph - j  # dark current needed
-        j0b = self.scale * np.exp(-self.x) * (self.x**2 + 2 * self.x + 2)
-        v = self.vt * np.log1p(target / j0b)
+        v = self.vt * np.log1p(target / self.j0_boltzmann())
         v = np.minimum(v, self.v_upper())
         for _ in range(100):
             step = (self._dark(v) - target) / self._ddark(v)
@@ -333,8 +345,7 @@ class BoseEinsteinDiodes:
 
     def series_guess(self, jmin, lim):
         """Start current [A m^-2]: the Boltzmann-diode solution for the same junctions."""
-        j0b = self.scale * np.exp(-self.x) * (self.x**2 + 2 * self.x + 2)
-        return BoltzmannDiodes(self.jph, j0b, self.vt).series_guess(jmin, lim)
+        return BoltzmannDiodes(self.jph, self.j0_boltzmann(), self.vt).series_guess(jmin, lim)
 
     def d2voltage(self, j):
         """d^2V/dJ^2 [V m^4 A^-2]."""
@@ -344,7 +355,9 @@ class BoseEinsteinDiodes:
 
     def voc(self):
         """Open-circuit voltage [V]."""
-        return self.voltage(np.zeros_like(self.jph))
+        if self._voc is None:
+            self._voc = self.voltage(np.zeros_like(self.jph))
+        return self._voc
 
     def mpp(self):
         """Exact maximum power point of each junction alone, ``(v [V], j [A m^-2])``."""

@@ -41,6 +41,8 @@ PLANCK_PREFACTOR: float = 2.0 * math.pi / (H**3 * C**2)
 
 _SERIES_SWITCH = 1.0  # d >= this: direct series; d < this: expansion about d = 0
 _SERIES_TERMS = 45  # exp(-45) ~ 3e-20: the direct series is converged for d >= 1
+# terms needed at distance d: exp(-(n - 1) d) / (1 - exp(-d)) < 2^-53 for n - 1 >= 37.2 / d
+_SERIES_EXPONENT = 37.2
 _EXPANSION_TERMS = 40  # terms of (d / 2 pi)^k: converged for d < 1
 
 
@@ -66,7 +68,10 @@ def polylog_exp(s: int, d: np.ndarray) -> np.ndarray:
 
     Notes
     -----
-    For ``d >= 1`` the direct series ``sum z^n / n^s`` (45 terms, ``z = exp(-d)``) is used.
+    For ``d >= 1`` the direct series ``sum z^n / n^s`` (``z = exp(-d)``) is used, with as
+    many terms as the smallest ``d`` of the batch needs for the remainder to fall below
+    double precision (``n = 1 + ceil(37.2 / d_min)``, at most 45: 38 at ``d = 1``, 5 at
+    ``d = 10``).
     Below, ``Li_1`` and ``Li_2`` use closed forms (``-log(1 - z)`` and scipy's ``spence``)
     and ``s >= 3`` the expansion about ``d = 0`` (DLMF 25.12.12); both are converged to
     double precision.
@@ -79,7 +84,11 @@ def polylog_exp(s: int, d: np.ndarray) -> np.ndarray:
         z = np.exp(-df)
         acc = np.zeros_like(df)
         zn = np.ones_like(df)
-        for n in range(1, _SERIES_TERMS + 1):
+        d_min = float(df.min())
+        n_terms = _SERIES_TERMS
+        if np.isfinite(d_min):
+            n_terms = min(_SERIES_TERMS, 1 + math.ceil(_SERIES_EXPONENT / d_min))
+        for n in range(1, n_terms + 1):
             zn = zn * z
             acc += zn / n**s
         out[far] = acc

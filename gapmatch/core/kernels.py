@@ -1,0 +1,173 @@
+"""Dispatch to the compiled per-stack kernels of the ideal step-absorber engine.
+
+The connection solvers of :mod:`.connections` call :func:`for_diodes`; when it returns
+parameters, they run the compiled kernel of :mod:`._jit` (numba) on them, otherwise their
+numpy code, which stays the reference: both implement the same iterations and agree to
+rounding (``tests/test_kernels.py`` checks 1e-12 relative on random batches).
+
+The kernels are used when numba can be imported, the environment variable
+``GAPMATCH_NO_JIT`` is unset (or ``0``), the diodes are one of the two ideal models
+(:class:`.diodes.BoltzmannDiodes`, :class:`.diodes.BoseEinsteinDiodes`) and the batch
+holds at least ``MIN_STACKS`` stacks (environment variable ``GAPMATCH_JIT_MIN_STACKS``,
+default 4096). The threshold exists because numba is imported, and the compiled code
+loaded, on the first call: about half a second once per process, more than numpy needs
+for a small batch. Compiled code is cached on disk (numba's ``cache=True``, next to the
+module or in ``NUMBA_CACHE_DIR``), so only the first run on a machine compiles (about
+10 to 30 s). Which path ran changes results only in the last digits (1e-13 relative).
+Boltzmann series and independent stacks stay on numpy (``NUMPY_BY_DEFAULT``), which is
+as fast there.
+
+References
+----------
+.. [1] S. K. Lam, A. Pitrou and S. Seibert, "Numba: a LLVM-based Python JIT compiler",
+   Proc. LLVM-HPC 2015 (the compiler used).
+"""
+
+from __future__ import annotations
+
+import importlib.util
+import os
+from contextlib import contextmanager
+
+import numpy as np
+
+__all__ = [
+    "MIN_STACKS",
+    "NUMPY_BY_DEFAULT",
+    "available",
+    "disabled",
+    "everywhere",
+    "min_stacks",
+    "for_diodes",
+    "jit",
+    "warm_up",
+]
+
+#: smallest batch (stacks) solved by the compiled kernels unless the environment says
+MIN_STACKS = 4096
+
+#: (diode model, connection) pairs left to numpy by default: measured on the 2-junction
+#: benchmark batch, numpy is as fast (series, ~400 ns/stack either way) or faster
+#: (independent: scipy's vectorised Wright omega, 160 vs 270 ns/stack), so the compiled
+#: kernel would only add numba's import to the process
+NUMPY_BY_DEFAULT = frozenset({("boltzmann", "series"), ("boltzmann", "independent")})
+
+_state = {"off": 0, "module": None, "checked": False, "ok": False, "min": None, "all": 0}
+
+
+def _min_stacks() -> int:
+    if _state["min"] is not None:
+        return _state["min"]
+    try:
+        return int(os.environ.get("GAPMATCH_JIT_MIN_STACKS", MIN_STACKS))
+    except ValueError:
+        return MIN_STACKS
+
+
+def available() -> bool:
+    """Whether the compiled kernels are in use (numba present, not disabled)."""
+    if _state["off"] or os.environ.get("GAPMATCH_NO_JIT", "0") not in ("", "0"):
+        return False
+    if not _state["checked"]:
+        _state["checked"] = True
+        _state["ok"] = importlib.util.find_spec("numba") is not None
+    return _state["ok"]
+
+
+@contextmanager
+def min_stacks(n: int):
+    """Use the compiled kernels for batches of at least ``n`` stacks inside the block."""
+    old = _state["min"]
+    _state["min"] = int(n)
+    try:
+        yield
+    finally:
+        _state["min"] = old
+
+
+@contextmanager
+def everywhere():
+    """Use the compiled kernels for every batch and every path inside the block (tests
+    comparing them with numpy)."""
+    _state["all"] += 1
+    try:
+        with min_stacks(0):
+            yield
+    finally:
+        _state["all"] -= 1
+
+
+@contextmanager
+def disabled():
+    """Run the numpy reference path inside the ``with`` block (tests, comparisons)."""
+    _state["off"] += 1
+    try:
+        yield
+    finally:
+        _state["off"] -= 1
+
+
+def jit():
+    """The compiled-kernel module (imports numba and loads or compiles on first use)."""
+    if _state["module"] is None:
+        from . import _jit
+
+        _state["module"] = _jit
+    return _state["module"]
+
+
+def for_diodes(d, connection: str):
+    """Kernel parameters ``(model, jph, vt, a, b, c, j0b, vup)`` of a diode batch for a
+    connection, or ``None`` when the numpy path runs (kernels unavailable, batch below
+    the threshold, a diode class the kernels do not implement, or a path in
+    ``NUMPY_BY_DEFAULT``). Arrays are ``(M, N)``, Fortran order."""
+    if not available() or d.jph.shape[0] < _min_stacks():
+        return None
+    if not _state["all"] and (getattr(d, "model", ""), connection) in NUMPY_BY_DEFAULT:
+        return None
+    from .diodes import BoltzmannDiodes, BoseEinsteinDiodes
+
+    def f(x):  # Fortran order, and a real array where broadcasting left zero strides
+        return np.array(x, dtype=float, order="F") if 0 in x.strides else np.asfortranarray(x)
+
+    if type(d) is BoltzmannDiodes:
+        jph, j0, vt = f(d.jph), f(d.j0), f(d.vt)
+        inf = np.full_like(jph, np.inf, order="F")
+        return 0, jph, vt, j0, j0, j0, j0, inf
+    if type(d) is BoseEinsteinDiodes:
+        return (
+            1,
+            f(d.jph),
+            f(d.vt),
+            f(d.x),
+            f(d.scale),
+            f(d.jrad0),
+            f(d.j0_boltzmann()),
+            f(d.v_upper()),
+        )
+    return None
+
+
+def warm_up() -> bool:
+    """Compile (or load from the cache) every kernel for the array types the engine
+    passes; returns whether the kernels are available."""
+    if not available():
+        return False
+    from .connections import (
+        best_ratio_voltage_matched,
+        solve_independent,
+        solve_series,
+        solve_voltage_matched,
+    )
+    from .diodes import make_diodes
+
+    gaps = np.array([[1.8, 1.1], [1.6, 0.9]]) * 1.602176634e-19
+    jph = np.array([[150.0, 160.0], [200.0, 120.0]])
+    with everywhere():
+        for model in ("boltzmann", "bose-einstein"):
+            d = make_diodes(model, jph, gaps, 300.0, 1.0, 1.0)
+            solve_series(d)
+            solve_independent(d)
+            best_ratio_voltage_matched(d)
+            solve_voltage_matched(d, np.array([1, 2]))
+    return True
