@@ -143,8 +143,8 @@ def _load(name: str):
 
 
 _COMPILE_SNIPPET = (
-    "import time; import gapmatch; from gapmatch.core import connections, kernels;"
-    "t = time.perf_counter(); ok = kernels.warm_up();"
+    "import time; import gapmatch; from gapmatch.core import connections;"
+    "t = time.perf_counter(); ok = connections.warm_up_kernels();"
     "print(ok, time.perf_counter() - t)"
 )
 

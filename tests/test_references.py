@@ -151,11 +151,6 @@ def test_single_junction_against_direct_maximisation(case):
 SJ_AT_GAP = [c for c in SJ if _voc_at_the_gap(c)]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="bug: the Bose-Einstein voltage ceiling E_g - 1e-3 kT/q "
-    "(BoseEinsteinDiodes.v_upper) holds V_oc about 26 uV below the exact value",
-)
 @pytest.mark.parametrize("case", SJ_AT_GAP, ids=_ids(SJ_AT_GAP))
 def test_bose_einstein_voc_close_to_the_gap(case):
     # At full concentration the exact V_oc is 1e-60 V (0.3 eV) and 6e-11 V (0.7 eV) below

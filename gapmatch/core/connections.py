@@ -47,6 +47,7 @@ __all__ = [
     "vm_power_bounds",
     "solve_series_resistive",
     "solve_independent_resistive",
+    "warm_up_kernels",
 ]
 
 CONNECTIONS = ("series", "independent", "voltage-matched")
@@ -550,3 +551,22 @@ def solve_independent_resistive(d, r) -> OperatingPoint:
     p = (j * (v - r * j)).sum(axis=1)
     nan = np.full(p.shape, np.nan)
     return OperatingPoint(p, nan, nan, nan, nan, v, j)
+
+
+def warm_up_kernels() -> bool:
+    """Compile (or load from the cache) every kernel for the array types the engine
+    passes; returns whether the kernels are available."""
+    if not kernels.available():
+        return False
+    from .diodes import make_diodes
+
+    gaps = np.array([[1.8, 1.1], [1.6, 0.9]]) * 1.602176634e-19
+    jph = np.array([[150.0, 160.0], [200.0, 120.0]])
+    with kernels.everywhere():
+        for model in ("boltzmann", "bose-einstein"):
+            d = make_diodes(model, jph, gaps, 300.0, 1.0, 1.0)
+            solve_series(d)
+            solve_independent(d)
+            best_ratio_voltage_matched(d)
+            solve_voltage_matched(d, np.array([1, 2]))
+    return True

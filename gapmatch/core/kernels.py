@@ -40,7 +40,6 @@ __all__ = [
     "min_stacks",
     "for_diodes",
     "jit",
-    "warm_up",
 ]
 
 #: smallest batch (stacks) solved by the compiled kernels unless the environment says
@@ -146,28 +145,3 @@ def for_diodes(d, connection: str):
             f(d.v_upper()),
         )
     return None
-
-
-def warm_up() -> bool:
-    """Compile (or load from the cache) every kernel for the array types the engine
-    passes; returns whether the kernels are available."""
-    if not available():
-        return False
-    from .connections import (
-        best_ratio_voltage_matched,
-        solve_independent,
-        solve_series,
-        solve_voltage_matched,
-    )
-    from .diodes import make_diodes
-
-    gaps = np.array([[1.8, 1.1], [1.6, 0.9]]) * 1.602176634e-19
-    jph = np.array([[150.0, 160.0], [200.0, 120.0]])
-    with everywhere():
-        for model in ("boltzmann", "bose-einstein"):
-            d = make_diodes(model, jph, gaps, 300.0, 1.0, 1.0)
-            solve_series(d)
-            solve_independent(d)
-            best_ratio_voltage_matched(d)
-            solve_voltage_matched(d, np.array([1, 2]))
-    return True
