@@ -180,7 +180,9 @@ def map_chunks(
                     bar.update(1)
             return out
         distributed = _import_distributed()
-        remote = {k: client.scatter(v, broadcast=True) for k, v in shared.items()}
+        # hash=False: a fresh key per call, so releasing an earlier call's copy of the same
+        # object cannot cancel this one
+        remote = {k: client.scatter(v, broadcast=True, hash=False) for k, v in shared.items()}
         # pure=False: every chunk is its own task even if two chunks compare equal
         futures = client.map(fn, list(chunks), pure=False, **remote)
         index = {f.key: i for i, f in enumerate(futures)}

@@ -105,3 +105,37 @@ def test_unreachable_scheduler_is_one_line():
     with pytest.raises(InputError, match="cannot reach the scheduler"):
         with cluster.connect(f"tcp://127.0.0.1:{port}", timeout_s=2.0):
             pass
+
+
+@pytest.mark.parametrize("others", ["fixed", "optimised"])
+def test_map_on_cluster_equals_local(client, others):
+    from gapmatch.maps import compute_map
+
+    kw = dict(
+        x_range_eV=(1.4, 2.0),
+        y_range_eV=(0.9, 1.3),
+        step_eV=0.05,
+        stack_eV=[1.8, 1.3, 0.9],
+        axes=(1, 2),
+        others=others,
+        free_range_eV=(0.6, 1.2),
+    )
+    here = compute_map(("series", "independent"), **kw)
+    there = compute_map(("series", "independent"), client=client, chunk_points=37, **kw)
+    for c in here.efficiency:
+        # bit-identical: every chunk runs the same floating-point operations
+        assert np.array_equal(here.efficiency[c], there.efficiency[c])
+        assert np.array_equal(here.gaps_eV[c], there.gaps_eV[c])
+
+
+def test_map_cli_on_local_cluster(tmp_path, capsys):
+    import json
+
+    from gapmatch.cli import main
+
+    args = ["map", "--range", "0.8", "2.0", "--step", "0.1", "--json"]
+    assert main(args) == 0
+    local = json.loads(capsys.readouterr().out)
+    assert main([*args, "--cluster", "local:2"]) == 0
+    remote = json.loads(capsys.readouterr().out)
+    assert remote["connections"] == local["connections"]

@@ -86,22 +86,24 @@ def register(sub) -> None:
         "--out", metavar="PREFIX", help="write PREFIX_map.csv and PREFIX_summary.json (atomically)"
     )
     p.add_argument("--json", action="store_true", help="print the JSON summary")
+    p.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="compute on a Dask cluster: local:N (N worker processes here) or a scheduler "
+        "address tcp://HOST:PORT (needs the cluster extra); numbers identical to one process",
+    )
     p.set_defaults(func=run)
 
 
 def run(args: argparse.Namespace) -> int:
     kw = condition_kwargs(args)
-    m = compute_map(
-        args.connections,
-        x_range_eV=tuple(args.x_range),
-        y_range_eV=tuple(args.y_range) if args.y_range else None,
-        step_eV=args.step,
-        stack_eV=args.stack,
-        axes=args.axes,
-        others=args.others,
-        progress=lambda s: print(s, file=sys.stderr),
-        **kw,
-    )
+    if args.cluster:
+        from ..cluster import connect
+
+        with connect(args.cluster) as client:
+            m = _compute(args, kw, client)
+    else:
+        m = _compute(args, kw, None)
     summary = m.summary(args.tolerance)
     if args.out:
         from ..io.atomic import write_atomic
@@ -115,6 +117,21 @@ def run(args: argparse.Namespace) -> int:
         return 0
     print(format_summary(summary))
     return 0
+
+
+def _compute(args: argparse.Namespace, kw: dict, client):
+    return compute_map(
+        args.connections,
+        x_range_eV=tuple(args.x_range),
+        y_range_eV=tuple(args.y_range) if args.y_range else None,
+        step_eV=args.step,
+        stack_eV=args.stack,
+        axes=args.axes,
+        others=args.others,
+        progress=lambda s: print(s, file=sys.stderr),
+        client=client,
+        **kw,
+    )
 
 
 def format_summary(s: dict) -> str:
