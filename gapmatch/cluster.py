@@ -116,7 +116,7 @@ def connect(cluster: Any, *, timeout_s: float = 30.0) -> Iterator[Any]:
                 n_workers=int(value),
                 threads_per_worker=1,
                 processes=True,
-                dashboard_address=None,
+                dashboard_address=":0",  # any free port, never a fixed one
                 host="127.0.0.1",
             ) as lc,
             distributed.Client(lc) as client,
