@@ -33,9 +33,9 @@ def quick_optimum(
     (numpy.ndarray, float)
         Gaps [eV] (top first) and objective value (fraction).
     """
-    from .runner import _global_samples, distinct, sobol_candidates
+    from .runner import distinct, global_samples, sobol_candidates
 
-    n = _global_samples(problem) if samples is None else samples
+    n = global_samples(problem) if samples is None else samples
     x, v = sobol_candidates(problem, n, seed)
     if len(x) == 0:
         return np.full(problem.n_junctions, np.nan), float("nan")

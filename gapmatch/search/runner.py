@@ -53,6 +53,8 @@ __all__ = [
     "sobol_candidates",
     "distinct",
     "default_trials",
+    "global_samples",
+    "is_slow",
 ]
 
 #: sampler names accepted by :func:`optimise`
@@ -82,38 +84,36 @@ def default_trials(problem: SearchProblem) -> int:
     return 2 * n if problem.robustness_eV is not None else n
 
 
-#: evaluation time per stack above which the polish uses 3 starts and no Nelder-Mead [s]
+#: declared evaluation cost per stack above which the polish uses 3 starts and no
+#: Nelder-Mead [s]
 SLOW_STACK_S = 100e-6
-#: time budget of the Sobol stage for slow objectives [s]
+#: nominal time budget of the Sobol stage, at the objective's declared cost [s]
 GLOBAL_BUDGET_S = 4.0
 
 
-def stack_cost_s(problem: SearchProblem) -> float:
-    """Measured evaluation time per stack [s]: a probe batch of 64 ordered stacks, then
-    4096 when that was fast (a large batch amortises the per-call overhead)."""
-    lo, hi = problem.bounds_eV[:, 0], problem.bounds_eV[:, 1]
-    rng = np.random.default_rng(0)
-    per = 0.0
-    for probe in (64, 4096):
-        g = -np.sort(-(lo + rng.random((probe, problem.n_junctions)) * (hi - lo)), axis=1)
-        t = time.perf_counter()
-        problem.evaluate(g, robust=False)
-        per = (time.perf_counter() - t) / probe
-        if per > SLOW_STACK_S:
-            break
-    return per
-
-
-def _global_samples(problem: SearchProblem, per: float | None = None) -> int:
+def global_samples(problem: SearchProblem) -> int:
     """Sobol sample size: 2^13 (one free gap) to 2^18 (four or more), reduced to fit
-    :data:`GLOBAL_BUDGET_S` when the objective is slow (e.g. voltage matching with the
-    automatic string ratio), never below 2^9."""
+    :data:`GLOBAL_BUDGET_S` at the objective's declared cost per stack
+    (:attr:`~gapmatch.search.problem.Objective.cost_per_stack_s`, e.g. Bose-Einstein
+    dark current), never below 2^9.
+
+    The size depends on the problem only, never on a clock, so one seed gives one
+    answer on any machine and under any load.
+    """
     k = problem.n_free
     n = 2 ** min(18, 11 + 2 * k - (k > 3) * (k - 3))
-    per = stack_cost_s(problem) if per is None else per
+    per = float(problem.objective.cost_per_stack_s)
     if per * 2 * n > GLOBAL_BUDGET_S:  # two sets of n points are evaluated
         n = 2 ** max(9, int(np.log2(GLOBAL_BUDGET_S / (2 * per))))
     return n
+
+
+_global_sample_count = global_samples  # optimise()'s argument shadows the name
+
+
+def is_slow(problem: SearchProblem) -> bool:
+    """True when the objective declares a cost per stack above :data:`SLOW_STACK_S`."""
+    return float(problem.objective.cost_per_stack_s) > SLOW_STACK_S
 
 
 def storage_url(storage: str | Path | None) -> str | None:
@@ -494,9 +494,8 @@ def optimise(
     resumed = len(study.trials) > 0
 
     # 1. global stage (deterministic from the study's seed: recomputed on resume)
-    per = stack_cost_s(problem)
-    slow = per > SLOW_STACK_S
-    ng = _global_samples(problem, per) if global_samples is None else int(global_samples)
+    slow = is_slow(problem)
+    ng = _global_sample_count(problem) if global_samples is None else int(global_samples)
     gx, gv = (
         sobol_candidates(problem, ng, seed0)
         if ng > 0
