@@ -86,7 +86,7 @@ def test_two_junction_global_optimum(connection, lit_eff_pct, lit_gaps):
     # literature values from memory are quoted to 0.1 % and 0.01-0.02 eV
     assert abs(100 * res.best_value - lit_eff_pct) < 0.1
     assert np.max(np.abs(res.best_gaps_eV - lit_gaps)) < 0.02
-    assert res.certified
+    assert res.local_max_check_passed
 
 
 def test_fixed_silicon_bottom_cell_top_gap():
@@ -220,6 +220,26 @@ def test_resume_continues_trial_count(tmp_path):
         optimise(
             make_problem(3, "series"), storage=db, study_name="resume", trials=5, progress=False
         )
+
+
+def test_other_seed_is_not_a_silent_resume(tmp_path, capsys):
+    db = tmp_path / "seeds.db"
+    base = ["optimise", "--junctions", "2", "--trials", "6", "--storage", str(db)]
+    base += ["--no-progress", "--json"]
+    assert main([*base, "--seed", "1"]) == 0
+    first = capsys.readouterr().err
+    assert main([*base, "--seed", "5"]) == 0
+    second = capsys.readouterr().err
+    # the seed is part of the default study name: a study of its own, not a resume
+    assert "seed1" in first and "seed5" in second and "(resumed)" not in second
+    assert main([*base, "--seed", "5"]) == 0
+    assert "(resumed)" in capsys.readouterr().err
+    # a named study made with another seed or sampler is an error, not a resume
+    problem = make_problem(2, "series")
+    optimise(problem, storage=db, study_name="named", trials=5, seed=1, progress=False)
+    for kw, said in ((dict(seed=5), "seed 1"), (dict(sampler="random"), "sampler 'tpe'")):
+        with pytest.raises(InputError, match=said):
+            optimise(problem, storage=db, study_name="named", trials=5, progress=False, **kw)
 
 
 def test_two_workers_share_one_sqlite_study(tmp_path):
@@ -378,7 +398,7 @@ def test_polish_never_worse_and_local_max(top, bottom, connection):
     r = polish(problem, x0, nelder_mead=1)[0]
     assert r.value >= r.start_value - 1e-12
     # local maximum to 1e-4 eV: no better point on a ring of radius 1e-4 eV (checked with
-    # the public evaluator, not the polish's own certificate)
+    # the public evaluator, not the polish's own local-maximum check)
     ang = np.linspace(0, 2 * np.pi, 32, endpoint=False)
     ring = r.gaps_eV + 1e-4 * np.column_stack([np.cos(ang), np.sin(ang)])
     ring = ring[np.diff(ring, axis=1)[:, 0] <= -0.05]

@@ -53,6 +53,8 @@ __all__ = [
     "sobol_candidates",
     "distinct",
     "default_trials",
+    "default_study_name",
+    "run_settings",
     "global_samples",
     "is_slow",
 ]
@@ -114,6 +116,58 @@ _global_sample_count = global_samples  # optimise()'s argument shadows the name
 def is_slow(problem: SearchProblem) -> bool:
     """True when the objective declares a cost per stack above :data:`SLOW_STACK_S`."""
     return float(problem.objective.cost_per_stack_s) > SLOW_STACK_S
+
+
+def run_settings(
+    *,
+    seed: int = 0,
+    sampler: str = "tpe",
+    global_samples: int | None = None,
+    n_seeds: int = 10,
+    polish_starts: int = 8,
+) -> dict:
+    """The settings besides the problem that change a search's answer (stored with the
+    study and compared when it is resumed)."""
+    return {
+        "seed": int(seed),
+        "sampler": sampler,
+        "global_samples": None if global_samples is None else int(global_samples),
+        "n_seeds": int(n_seeds),
+        "polish_starts": int(polish_starts),
+    }
+
+
+def default_study_name(problem: SearchProblem, **settings) -> str:
+    """``<N>J-<connection>-<spectrum>-<hash>-<sampler>-seed<S>``, plus the other
+    :func:`run_settings` where they differ from their defaults (``-g<samples>``,
+    ``-n<seeds>``, ``-p<starts>``): a run with another seed or sampler starts a study of
+    its own instead of resuming one made differently."""
+    st = run_settings(**settings)
+    name = f"{problem.default_study_name()}-{st['sampler']}-seed{st['seed']}"
+    if st["global_samples"] is not None:
+        name += f"-g{st['global_samples']}"
+    if st["n_seeds"] != 10:
+        name += f"-n{st['n_seeds']}"
+    if st["polish_starts"] != 8:
+        name += f"-p{st['polish_starts']}"
+    return name
+
+
+def _check_settings(study, settings: dict, study_name: str) -> None:
+    """InputError when a stored study was made with other answer-changing settings."""
+    stored = study.user_attrs.get("settings")
+    if stored is None and "seed" in study.user_attrs:  # studies stored before settings
+        stored = {"seed": study.user_attrs["seed"]}
+    if stored is None:
+        return
+    diff = [k for k in stored if stored[k] != settings.get(k)]
+    if diff:
+        said = ", ".join(f"{k} {stored[k]!r} (this run: {settings.get(k)!r})" for k in diff)
+        raise InputError(
+            "study_name",
+            f"names a study made with {said}; use the same settings or another study name",
+            study_name,
+        )
 
 
 def storage_url(storage: str | Path | None) -> str | None:
@@ -424,9 +478,10 @@ def optimise(
         SQLite file path, any optuna RDB URL (``postgresql://...``, ``mysql://...``), or
         ``":memory:"`` (no persistence; one worker). Default ``reports/search/studies.db``.
     study_name : str, optional
-        Study to create or resume (default from the problem, see
-        :meth:`SearchProblem.default_study_name`). Resuming with a different problem
-        raises InputError.
+        Study to create or resume (default from the problem and the settings that
+        change the answer, see :func:`default_study_name`). Resuming a study of a
+        different problem, seed, sampler, ``global_samples``, ``n_seeds`` or
+        ``polish_starts`` raises InputError.
     workers : int
         Processes that run trials against the shared storage (1-64).
     sampler : {"tpe", "cmaes", "random", "qmc", "gp", "nsga2"}
@@ -476,21 +531,30 @@ def optimise(
             "more than one worker needs a storage (SQLite file or database URL), not ':memory:'",
             workers,
         )
-    study_name = study_name or problem.default_study_name()
+    settings = run_settings(
+        seed=seed,
+        sampler=sampler,
+        global_samples=global_samples,
+        n_seeds=n_seeds,
+        polish_starts=polish_starts,
+    )
+    study_name = study_name or default_study_name(problem, **settings)
     optuna.logging.set_verbosity(optuna.logging.ERROR)
     study = _open_study(problem, url, study_name, sampler, seed, create=True)
     desc = json.dumps(problem.describe(), sort_keys=True, default=str)
     stored = study.user_attrs.get("problem")
     if stored is None:
         study.set_user_attr("problem", desc)
-        study.set_user_attr("seed", int(seed))
+        study.set_user_attr("settings", settings)
     elif stored != desc:
         raise InputError(
             "study_name",
             "names a study of a different problem; choose another --study-name or the same problem",
             study_name,
         )
-    seed0 = int(study.user_attrs.get("seed", seed))
+    else:
+        _check_settings(study, settings, study_name)
+    seed0 = int(seed)
     resumed = len(study.trials) > 0
 
     # 1. global stage (deterministic from the study's seed: recomputed on resume)
@@ -644,12 +708,12 @@ def optimise(
         best=full,
         best_gaps_eV=best.gaps_eV.copy(),
         best_value=best.value,
-        certified=best.certified,
+        local_max_check_passed=best.local_max_check_passed,
         alternatives=[
             {
                 "gaps_eV": [float(g) for g in r.gaps_eV],
                 problem.objective.name: float(r.value),
-                "certified": r.certified,
+                "local_max_check_passed": r.local_max_check_passed,
             }
             for r in alts
         ],
@@ -702,7 +766,7 @@ def _store_polished(study, problem, results) -> None:
                 distributions=dists,
                 user_attrs={
                     "stage": "polish",
-                    "certified": r.certified,
+                    "local_max_check_passed": r.local_max_check_passed,
                     "eval": {
                         "constraints": cons,
                         "feasible": bool(ev.feasible[0]),
