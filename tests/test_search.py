@@ -222,6 +222,16 @@ def test_resume_continues_trial_count(tmp_path):
         )
 
 
+def test_rerun_of_a_finished_study_adds_nothing(tmp_path):
+    db = tmp_path / "rerun.db"
+    problem = make_problem(2, "series")
+    first = optimise(problem, storage=db, study_name="rerun", trials=12, progress=False)
+    again = optimise(problem, storage=db, study_name="rerun", trials=12, progress=False)
+    assert again.resumed and again.n_trials == first.n_trials == 12
+    assert len(again.trials) == len(first.trials)  # no new polish (or other) trials
+    np.testing.assert_array_equal(again.best_gaps_eV, first.best_gaps_eV)
+
+
 def test_other_seed_is_not_a_silent_resume(tmp_path, capsys):
     db = tmp_path / "seeds.db"
     base = ["optimise", "--junctions", "2", "--trials", "6", "--storage", str(db)]
@@ -253,8 +263,10 @@ def test_two_workers_share_one_sqlite_study(tmp_path):
         progress=False,
     )
     df = res.to_frame()
-    explore = df[df["stage"] != "polish"]
-    assert res.n_trials >= 40
+    explore = df[~df["stage"].isin(["polish", "surplus"])]
+    # the budget belongs to the study: exactly 40 complete trials, no overshoot
+    assert res.n_trials == 40 and (explore["state"] == "COMPLETE").sum() == 40
+    assert len(explore) == 40 and (df["state"] == "RUNNING").sum() == 0
     # the Sobol seeds run in the calling process, the sampler trials in the two workers
     assert explore.loc[explore["stage"] == "sampler", "worker_pid"].nunique() == 2
     assert abs(100 * res.best_value - 45.7) < 0.1  # literature value from memory

@@ -10,7 +10,8 @@ from ..core.connections import CONNECTIONS
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise
-from ..search.runner import DEFAULT_STORAGE, default_study_name, shell_join
+from ..search.runner import default_study_name, shell_join
+from ..search.storage import DEFAULT_STORAGE
 from .options import add_condition_options, condition_kwargs
 
 
@@ -231,8 +232,8 @@ def run(args: argparse.Namespace) -> int:
             progress=not args.no_progress,
             resume_command=resume,
         )
-    except SearchInterrupted:
-        return 130
+    except SearchInterrupted as stop:
+        return stop.exit_code  # 130 after SIGINT, 143 after SIGTERM
     if args.csv:
         write_atomic(args.csv, res.to_frame().to_csv(index=False))
     if args.json:

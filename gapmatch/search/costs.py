@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .global_stage import distinct, global_samples, sobol_candidates
 from .polish import polish
 from .problem import DEFAULT_WINDOW_EV, SearchProblem, make_problem
 
@@ -33,8 +34,6 @@ def quick_optimum(
     (numpy.ndarray, float)
         Gaps [eV] (top first) and objective value (fraction).
     """
-    from .runner import distinct, global_samples, sobol_candidates
-
     n = global_samples(problem) if samples is None else samples
     x, v = sobol_candidates(problem, n, seed)
     if len(x) == 0:
