@@ -357,10 +357,11 @@ def _optimise(
             else:
                 run_trials(study, problem, trials, **run)
         interrupted, signum = guard.requested, guard.signum or signal.SIGINT
-    except KeyboardInterrupt:  # a second signal
+    except KeyboardInterrupt:  # a second signal: stop the workers outright (their running
+        # trials are failed by the heartbeat rule and retried on resume)
         for pr in procs:
             if pr.is_alive():
-                pr.terminate()
+                pr.kill()
                 pr.join(5)
         interrupted, signum = True, guard.signum or signal.SIGINT
     finally:

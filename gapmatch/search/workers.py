@@ -176,6 +176,7 @@ class TrialObjective:
         self.problem = problem
         self.budget = budget
         self.tag_worker = tag_worker
+        self.current: int | None = None  # number of the trial being run
 
     def _surplus(self, trial: optuna.Trial) -> bool:
         trials = trial.study.get_trials(deepcopy=False)
@@ -184,6 +185,7 @@ class TrialObjective:
         return ahead >= self.budget
 
     def __call__(self, trial: optuna.Trial):
+        self.current = trial.number
         if self.budget is not None and self._surplus(trial):
             trial.set_user_attr("stage", "surplus")
             raise optuna.TrialPruned("the study's trial budget is taken")
@@ -218,17 +220,20 @@ class TrialObjective:
 
 class GracefulStop:
     """First SIGINT or SIGTERM: finish the running trial, then stop (no database write
-    is cut in half). A second one interrupts at once. ``signum`` is the first signal."""
+    is cut in half). With ``escalate`` a second one interrupts at once (a user's second
+    Ctrl-C); worker processes never escalate (their parent kills them outright when it
+    must). ``signum`` is the first signal."""
 
     SIGNALS = (signal.SIGINT, signal.SIGTERM)
 
-    def __init__(self) -> None:
+    def __init__(self, escalate: bool = True) -> None:
         self.requested = False
         self.signum: int | None = None
+        self.escalate = escalate
         self._old: dict[int, object] = {}
 
     def _handle(self, signum, frame):  # pragma: no cover - signal handler
-        if self.requested:
+        if self.requested and self.escalate:
             raise KeyboardInterrupt
         self.requested = True
         self.signum = signum
@@ -320,6 +325,9 @@ def run_trials(
             with quiet_optuna():
                 study.optimize(obj, n_trials=1, catch=(), gc_after_trial=False)
             races = 0
+        except KeyboardInterrupt:  # an interrupt cut the trial: it runs again on resume
+            _retry_cut_trial(study, obj.current)
+            raise
         except _race_errors() as exc:  # another process changed the trial first
             races += 1
             if races > MAX_RACES:
@@ -330,6 +338,18 @@ def run_trials(
                 file=sys.stderr,
             )
             time.sleep(0.1 * races)
+
+
+def _retry_cut_trial(study: optuna.Study, number: int | None) -> None:
+    """Enqueue a retry of a trial that an interrupt failed halfway (best effort)."""
+    if number is None:
+        return
+    try:
+        t = study.get_trials(deepcopy=False)[number]
+        if t.state == _TS.FAIL and trial_stage(t) not in UNCOUNTED_STAGES:
+            optuna.storages.RetryFailedTrialCallback(max_retry=3)(study, t)
+    except Exception:  # noqa: BLE001 - the interrupt goes on regardless
+        pass
 
 
 def _die_with_parent() -> None:
@@ -351,7 +371,7 @@ def worker_main(problem, url, study_name, sampler_name, seed, budget, parent_pid
         return
     from .samplers import make_sampler
 
-    with quiet_optuna(), GracefulStop() as guard:
+    with quiet_optuna(), GracefulStop(escalate=False) as guard:
         storage = open_storage(url)
         study = optuna.load_study(
             study_name=study_name,
