@@ -215,19 +215,19 @@ def open_storage(url: str | None, *, heartbeat: bool = True):
         try:
             with quiet_optuna():
                 return optuna.storages.RDBStorage(url, engine_kwargs=dict(kw), **extra)
-        except sa_exc.ArgumentError:
-            raise InputError(
-                "storage",
-                "is not a database URL; give a file path, journal:PATH or a URL such as "
-                "postgresql+psycopg://user@host:5432/db",
-                shown_url(url),
-            ) from None
         except sa_exc.NoSuchModuleError:
             raise InputError(
                 "storage",
                 "names an unknown database kind; use a file path, journal:PATH, "
                 "postgresql+psycopg://... or mysql+pymysql://...",
                 url.split("://", 1)[0],
+            ) from None
+        except (sa_exc.ArgumentError, ValueError):  # unparsable, or e.g. a port not a number
+            raise InputError(
+                "storage",
+                "is not a database URL; give a file path, journal:PATH or a URL such as "
+                "postgresql+psycopg://user@host:5432/db",
+                shown_url(url),
             ) from None
         except ImportError as exc:
             raise _driver_error(url, exc.__cause__ or exc) from None
