@@ -44,7 +44,7 @@ from .polish import polish
 from .problem import SearchProblem
 from .result import SearchResult, trials_frame
 from .samplers import SAMPLERS, make_sampler
-from .storage import is_journal, open_storage, open_study, quiet_optuna, shown_url, storage_url
+from .storage import open_storage, open_study, quiet_optuna, shown_url, storage_url, uses_heartbeats
 from .trials import SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
 from .workers import GracefulStop, count_trials, run_trials, worker_main
 
@@ -312,7 +312,7 @@ def _optimise(
             )
         _check_settings(study, settings, study_name)
     resumed = not created
-    journal = is_journal(url)
+    tag = not uses_heartbeats(url)  # SQLite and journal files: host:pid on each trial
 
     # 2. optuna trials, until the study holds its budget
     if resume_command is None:
@@ -336,7 +336,7 @@ def _optimise(
                     unit="trial",
                     dynamic_ncols=True,
                 )
-            run = dict(guard=guard, progress=bar, tag_worker=journal)
+            run = dict(guard=guard, progress=bar, tag_worker=tag)
             if workers > 1:
                 # the enqueued Sobol seeds run here first, then every worker is a process
                 # of its own and this one watches the storage

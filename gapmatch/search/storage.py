@@ -34,6 +34,7 @@ from typing import Any
 import optuna
 
 from ..errors import InputError
+from .trials import RETRY
 
 __all__ = [
     "DEFAULT_STORAGE",
@@ -45,6 +46,7 @@ __all__ = [
     "shown_url",
     "quiet_optuna",
     "is_journal",
+    "uses_heartbeats",
 ]
 
 #: default storage: an SQLite file under reports/ (relative to the working folder)
@@ -79,6 +81,16 @@ def quiet_optuna() -> Iterator[None]:
 def is_journal(url: str | None) -> bool:
     """True for a journal-file storage address (``journal:PATH``)."""
     return url is not None and url.startswith(_JOURNAL)
+
+
+def uses_heartbeats(url: str | None) -> bool:
+    """True for database servers, whose trials are watched by optuna's heartbeats.
+
+    SQLite files and journal files serve processes of one machine (or one shared file
+    system): their trials record ``host:pid`` instead, which costs one write per trial
+    and no heartbeat thread.
+    """
+    return url is not None and not is_journal(url) and not url.startswith("sqlite")
 
 
 def storage_url(storage: str | Path | None) -> str | None:
@@ -176,10 +188,11 @@ def _connection_error(url: str, exc: BaseException) -> InputError:
     return InputError("storage", f"cannot open the database ({first})", shown_url(url))
 
 
-def open_storage(url: str | None, *, heartbeat: bool = True):
+def open_storage(url: str | None, *, heartbeat: bool | None = None):
     """An optuna storage for an address from :func:`storage_url` (``None``: in memory).
 
-    Database storages get heartbeats (:data:`HEARTBEAT_S`, :data:`GRACE_S`) and
+    Database servers (``heartbeat`` default: :func:`uses_heartbeats`) get heartbeats
+    (:data:`HEARTBEAT_S`, :data:`GRACE_S`) and
     optuna's :class:`~optuna.storages.RetryFailedTrialCallback`, so the running trial of
     a killed worker is failed and run again by another. Opening is retried while other
     processes create the tables of a new database.
@@ -204,11 +217,13 @@ def open_storage(url: str | None, *, heartbeat: bool = True):
 
     kw = _rdb_kwargs(url)
     extra: dict[str, Any] = {}
+    if heartbeat is None:
+        heartbeat = uses_heartbeats(url)
     if heartbeat:
         extra = dict(
             heartbeat_interval=HEARTBEAT_S,
             grace_period=GRACE_S,
-            heartbeat_stale_trial_callback=optuna.storages.RetryFailedTrialCallback(max_retry=3),
+            heartbeat_stale_trial_callback=RETRY(max_retry=3),
         )
     last: BaseException | None = None
     for attempt in range(OPEN_ATTEMPTS):

@@ -11,7 +11,12 @@ from __future__ import annotations
 
 import optuna
 
-__all__ = ["SET_CONSTRAINT", "UNCOUNTED_STAGES", "trial_attr", "trial_stage"]
+__all__ = ["SET_CONSTRAINT", "UNCOUNTED_STAGES", "RETRY", "trial_attr", "trial_stage"]
+
+#: optuna's callback that re-enqueues a failed trial (renamed in optuna 4.9)
+RETRY = getattr(
+    optuna.storages, "RetryHeartbeatStaleTrialCallback", optuna.storages.RetryFailedTrialCallback
+)
 
 #: optuna >= 5 stores constraints on the trial itself (``Trial.set_constraint``)
 SET_CONSTRAINT = hasattr(optuna.trial.Trial, "set_constraint")

@@ -6,12 +6,14 @@ retry); waiting and running trials hold their place. Every process runs trials o
 while places are free, and a trial that finds every place taken by lower-numbered
 trials when it starts (two processes started one at the same moment) stops at once as
 ``stage = "surplus"`` and is never counted, so the study ends with exactly the budget.
+Every process counts the places before each trial; within :data:`NEAR_PLACES` free
+places (or 4 per running trial) each trial also checks its own place when it starts.
 
 Processes stop gracefully on SIGINT and SIGTERM (the running trial finishes, nothing is
 cut in half); worker processes started by :func:`gapmatch.search.optimise` also stop
 when their parent dies. Running trials of dead processes are failed and retried:
-through optuna's heartbeats on database storages, through the recorded ``host:pid`` on
-journal files, and after :data:`LEGACY_STALE_S` for trials that have neither.
+through optuna's heartbeats on database servers, through the recorded ``host:pid`` on
+SQLite and journal files, and after :data:`LEGACY_STALE_S` for trials that have neither.
 """
 
 from __future__ import annotations
@@ -29,7 +31,7 @@ import optuna
 
 from .problem import SearchProblem
 from .storage import open_storage, quiet_optuna, worker_tag
-from .trials import SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
+from .trials import RETRY, SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
 
 __all__ = [
     "TrialObjective",
@@ -47,6 +49,9 @@ WAIT_S = 0.5
 LEGACY_STALE_S = 600.0
 #: storage races (another process changed a trial first) tolerated in a row
 MAX_RACES = 20
+#: "near the budget": fewer free places than this, or than 4 per running trial; there
+#: every trial checks its place when it starts
+NEAR_PLACES = 12
 
 _TS = optuna.trial.TrialState
 
@@ -56,16 +61,15 @@ class BudgetCount:
     ``held`` (``counted`` plus running and waiting), ``waiting`` (enqueued, not started)
     and the best feasible value."""
 
-    def __init__(self, counted: int, held: int, waiting: int, best: float | None) -> None:
+    def __init__(
+        self, counted: int, held: int, waiting: int, best: float | None, running: int = 0
+    ) -> None:
         self.counted, self.held, self.waiting, self.best = counted, held, waiting, best
+        self.running = running
 
 
 def _retried(trials) -> set[int]:
-    return {
-        int(n)
-        for t in trials
-        if (n := optuna.storages.RetryFailedTrialCallback.retried_trial_number(t)) is not None
-    }
+    return {int(n) for t in trials if (n := RETRY.retried_trial_number(t)) is not None}
 
 
 def _holds_place(t, retried: set[int]) -> tuple[bool, bool]:
@@ -84,13 +88,14 @@ def count_trials(study: optuna.Study) -> BudgetCount:
     """How much of the study's trial budget is counted and held (one storage read)."""
     trials = study.get_trials(deepcopy=False)
     retried = _retried(trials)
-    counted = held = waiting = 0
+    counted = held = waiting = running = 0
     best = None
     for t in trials:
         h, c = _holds_place(t, retried)
         held += h
         counted += c
         waiting += h and t.state == _TS.WAITING
+        running += h and t.state == _TS.RUNNING
         if (
             t.state == _TS.COMPLETE
             and trial_stage(t) != "polish"
@@ -98,7 +103,7 @@ def count_trials(study: optuna.Study) -> BudgetCount:
             and (best is None or t.values[0] > best)
         ):
             best = t.values[0]
-    return BudgetCount(counted, held, waiting, best)
+    return BudgetCount(counted, held, waiting, best, running)
 
 
 def _alive(tag: str | None) -> bool | None:
@@ -151,7 +156,7 @@ def fail_stale_trials(study: optuna.Study) -> int:
             except (ValueError, RuntimeError, optuna.exceptions.UpdateFinishedTrialError):
                 continue  # finished or failed by another process meanwhile
             frozen = study.get_trials(deepcopy=False)[t.number]
-            optuna.storages.RetryFailedTrialCallback(max_retry=3)(study, frozen)
+            RETRY(max_retry=3)(study, frozen)
             n += 1
     return n
 
@@ -177,6 +182,7 @@ class TrialObjective:
         self.budget = budget
         self.tag_worker = tag_worker
         self.current: int | None = None  # number of the trial being run
+        self.check = True  # check the budget at the start of the trial
 
     def _surplus(self, trial: optuna.Trial) -> bool:
         trials = trial.study.get_trials(deepcopy=False)
@@ -186,7 +192,7 @@ class TrialObjective:
 
     def __call__(self, trial: optuna.Trial):
         self.current = trial.number
-        if self.budget is not None and self._surplus(trial):
+        if self.budget is not None and self.check and self._surplus(trial):
             trial.set_user_attr("stage", "surplus")
             raise optuna.TrialPruned("the study's trial budget is taken")
         if self.tag_worker:
@@ -321,6 +327,7 @@ def run_trials(
             time.sleep(WAIT_S)
             fail_stale_trials(study)
             continue
+        obj.check = _near(c, budget)
         try:
             with quiet_optuna():
                 study.optimize(obj, n_trials=1, catch=(), gc_after_trial=False)
@@ -340,6 +347,10 @@ def run_trials(
             time.sleep(0.1 * races)
 
 
+def _near(c: BudgetCount, budget: int) -> bool:
+    return budget - c.held <= max(NEAR_PLACES, 4 * c.running)
+
+
 def _retry_cut_trial(study: optuna.Study, number: int | None) -> None:
     """Enqueue a retry of a trial that an interrupt failed halfway (best effort)."""
     if number is None:
@@ -347,7 +358,7 @@ def _retry_cut_trial(study: optuna.Study, number: int | None) -> None:
     try:
         t = study.get_trials(deepcopy=False)[number]
         if t.state == _TS.FAIL and trial_stage(t) not in UNCOUNTED_STAGES:
-            optuna.storages.RetryFailedTrialCallback(max_retry=3)(study, t)
+            RETRY(max_retry=3)(study, t)
     except Exception:  # noqa: BLE001 - the interrupt goes on regardless
         pass
 
@@ -378,13 +389,13 @@ def worker_main(problem, url, study_name, sampler_name, seed, budget, parent_pid
             storage=storage,
             sampler=make_sampler(sampler_name, problem, seed),
         )
-        from .storage import is_journal
+        from .storage import uses_heartbeats
 
         run_trials(
             study,
             problem,
             budget,
             guard=guard,
-            tag_worker=is_journal(url),
+            tag_worker=not uses_heartbeats(url),
             parent_pid=parent_pid,
         )
