@@ -120,14 +120,21 @@ def default_study_name(problem: SearchProblem, **settings) -> str:
     return name
 
 
+def _study_seed(study, seed: int) -> int:
+    """The seed a study was made with (its Sobol stage and polish use it)."""
+    stored = study.user_attrs.get("settings") or {}
+    return int(stored.get("seed", study.user_attrs.get("seed", seed)))
+
+
 def _check_settings(study, settings: dict, study_name: str) -> None:
-    """InputError when a stored study was made with other answer-changing settings."""
+    """InputError when a stored study was made with another sampler, Sobol size, seed
+    count or polish count. The seed is apart: a process joining a named study with
+    another seed samples with its own seed (machines sharing a study each give one) and
+    uses the study's seed for the Sobol stage and the polish, and says so."""
     stored = study.user_attrs.get("settings")
-    if stored is None and "seed" in study.user_attrs:  # studies stored before settings
-        stored = {"seed": study.user_attrs["seed"]}
     if stored is None:
         return
-    diff = [k for k in stored if stored[k] != settings.get(k)]
+    diff = [k for k in stored if k != "seed" and stored[k] != settings.get(k)]
     if diff:
         said = ", ".join(f"{k} {stored[k]!r} (this run: {settings.get(k)!r})" for k in diff)
         raise InputError(
@@ -311,6 +318,16 @@ def _optimise(
                 study_name,
             )
         _check_settings(study, settings, study_name)
+        seed0 = _study_seed(study, seed)
+        if seed0 != seed:
+            print(
+                f"note: study {study_name!r} was made with seed {seed0}: its Sobol stage and "
+                f"polish use seed {seed0}, this process's sampler seed {seed}",
+                file=sys.stderr,
+            )
+            seed = seed0
+            if n_global > 0:
+                gx, gv = sobol_candidates(problem, n_global, seed)
     resumed = not created
     tag = not uses_heartbeats(url)  # SQLite and journal files: host:pid on each trial
 

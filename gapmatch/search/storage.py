@@ -220,10 +220,12 @@ def open_storage(url: str | None, *, heartbeat: bool | None = None):
     if heartbeat is None:
         heartbeat = uses_heartbeats(url)
     if heartbeat:
+        with quiet_optuna():
+            retry = RETRY(max_retry=3)
         extra = dict(
             heartbeat_interval=HEARTBEAT_S,
             grace_period=GRACE_S,
-            heartbeat_stale_trial_callback=RETRY(max_retry=3),
+            heartbeat_stale_trial_callback=retry,
         )
     last: BaseException | None = None
     for attempt in range(OPEN_ATTEMPTS):

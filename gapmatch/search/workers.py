@@ -69,7 +69,9 @@ class BudgetCount:
 
 
 def _retried(trials) -> set[int]:
-    return {int(n) for t in trials if (n := RETRY.retried_trial_number(t)) is not None}
+    # optuna's retry callback stores the failed trial's number as system attribute
+    # "failed_trial" (what its experimental retried_trial_number() reads)
+    return {int(n) for t in trials if (n := t.system_attrs.get("failed_trial")) is not None}
 
 
 def _holds_place(t, retried: set[int]) -> tuple[bool, bool]:
@@ -156,7 +158,8 @@ def fail_stale_trials(study: optuna.Study) -> int:
             except (ValueError, RuntimeError, optuna.exceptions.UpdateFinishedTrialError):
                 continue  # finished or failed by another process meanwhile
             frozen = study.get_trials(deepcopy=False)[t.number]
-            RETRY(max_retry=3)(study, frozen)
+            with quiet_optuna():
+                RETRY(max_retry=3)(study, frozen)
             n += 1
     return n
 
@@ -358,7 +361,8 @@ def _retry_cut_trial(study: optuna.Study, number: int | None) -> None:
     try:
         t = study.get_trials(deepcopy=False)[number]
         if t.state == _TS.FAIL and trial_stage(t) not in UNCOUNTED_STAGES:
-            RETRY(max_retry=3)(study, t)
+            with quiet_optuna():
+                RETRY(max_retry=3)(study, t)
     except Exception:  # noqa: BLE001 - the interrupt goes on regardless
         pass
 
