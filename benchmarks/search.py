@@ -124,7 +124,7 @@ def measure(
                     time_target_s=target,
                     reference_time_s=ref_time,
                     trials=res.n_trials,
-                    certified=res.certified,
+                    local_max_check_passed=res.local_max_check_passed,
                     gaps_eV=[round(float(g), 4) for g in res.best_gaps_eV],
                     reference_gaps_eV=[round(float(g), 4) for g in rg],
                     ok=bool(short <= tol and (target is None or dt <= target)),

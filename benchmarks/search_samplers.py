@@ -17,7 +17,9 @@ import numpy as np
 import optuna
 
 from gapmatch.search import make_problem, quick_optimum
-from gapmatch.search.runner import _attr, _TrialObjective, make_sampler
+from gapmatch.search.samplers import make_sampler
+from gapmatch.search.trials import trial_attr as _attr
+from gapmatch.search.workers import TrialObjective as _TrialObjective
 
 CASES = [(3, "series"), (4, "independent")]
 SAMPLERS = ["tpe", "cmaes", "qmc", "random", "gp"]

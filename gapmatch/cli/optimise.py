@@ -10,7 +10,8 @@ from ..core.registry import CONNECTIONS
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise
-from ..search.runner import DEFAULT_STORAGE, shell_join
+from ..search.runner import default_study_name, shell_join
+from ..search.storage import DEFAULT_STORAGE
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
 
@@ -120,7 +121,8 @@ def register(sub) -> None:
     s.add_argument(
         "--study-name",
         metavar="NAME",
-        help="study to create or resume (default: derived from the problem)",
+        help="study to create or resume (default: derived from the problem, the seed and "
+        "the sampler; an existing study made with other settings is an error)",
     )
     s.add_argument("--csv", metavar="PATH", help="write every trial to this CSV file")
     s.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -213,7 +215,7 @@ def run(args: argparse.Namespace) -> int:
     problem, default_trials, default_seed = _problem_from_args(args)
     trials = args.trials if args.trials is not None else default_trials
     seed = args.seed if args.seed is not None else default_seed
-    study_name = args.study_name or problem.default_study_name()
+    study_name = args.study_name or default_study_name(problem, seed=seed, sampler=args.sampler)
     argv = ["gapmatch", *sys.argv[1:]] if sys.argv and "gapmatch" in sys.argv[0] else None
     resume = shell_join(
         (argv or ["gapmatch", "optimise", "..."])
@@ -231,8 +233,8 @@ def run(args: argparse.Namespace) -> int:
             progress=not args.no_progress,
             resume_command=resume,
         )
-    except SearchInterrupted:
-        return 130
+    except SearchInterrupted as stop:
+        return stop.exit_code  # 130 after SIGINT, 143 after SIGTERM
     if args.csv:
         write_atomic(args.csv, res.to_frame().to_csv(index=False))
     if args.json:
@@ -263,7 +265,11 @@ def format_summary(res) -> str:
         f"Spectrum: {d['conditions']['spectrum']}",
         f"Study {res.study_name!r} in {res.storage}: {res.n_trials} trials"
         f"{' (resumed)' if res.resumed else ''}, seed {res.seed}, {res.elapsed_s:.1f} s; "
-        f"polished to a local maximum{' (certified at 1e-4 eV)' if res.certified else ''}",
+        + (
+            "polished to a local maximum (no better neighbour at 1e-4 eV)"
+            if res.local_max_check_passed
+            else "polished; the local-maximum check found a better neighbour at 1e-4 eV"
+        ),
     ]
     if res.alternatives:
         lines += ["", f"{'rank':>4} {'gaps [eV], top first':<44} {'efficiency [%]':>14}"]

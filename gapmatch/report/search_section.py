@@ -50,7 +50,7 @@ def search_section(ctx) -> SectionOutput:
             " / ".join(f"{r[c]:.4f}" for c in gap_cols),
             f"{r[value_col]:.3f}",
             f"{r['delta_pct']:.3f}",
-            "yes" if r["certified"] else "no",
+            "yes" if r["local_max_check_passed"] else "no",
         ]
         for _, r in opt.iterrows()
     ]

@@ -176,7 +176,7 @@ def design_gaps(
     -------
     (numpy.ndarray, dict)
         Gaps top first [eV] and a description of the search (``method``,
-        ``samples``, ``starts``, ``certified``, ``windows_eV``).
+        ``samples``, ``starts``, ``local_max_check_passed``, ``windows_eV``).
 
     Raises
     ------
@@ -266,7 +266,7 @@ def design_gaps(
         "method": "Sobol sample and pattern-search polish (gapmatch.search)",
         "samples": samples,
         "starts": int(len(starts)),
-        "certified": bool(best.certified),
+        "local_max_check_passed": bool(best.local_max_check_passed),
     }
 
 

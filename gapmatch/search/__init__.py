@@ -10,6 +10,7 @@
 from __future__ import annotations
 
 from .costs import constraint_costs, quick_optimum
+from .global_stage import distinct, global_samples, sobol_candidates
 from .polish import PolishResult, polish
 from .problem import (
     DEFAULT_MIN_SPACING_EV,
@@ -23,16 +24,9 @@ from .problem import (
     make_problem,
 )
 from .result import SearchResult, pareto_mask, trials_frame
-from .runner import (
-    DEFAULT_STORAGE,
-    SAMPLERS,
-    SearchInterrupted,
-    default_trials,
-    distinct,
-    optimise,
-    sobol_candidates,
-    storage_url,
-)
+from .runner import SearchInterrupted, default_study_name, default_trials, optimise
+from .samplers import SAMPLERS
+from .storage import DEFAULT_STORAGE, storage_url
 
 __all__ = [
     "DEFAULT_MIN_SPACING_EV",
@@ -49,8 +43,10 @@ __all__ = [
     "SearchProblem",
     "SearchResult",
     "constraint_costs",
+    "default_study_name",
     "default_trials",
     "distinct",
+    "global_samples",
     "make_problem",
     "optimise",
     "pareto_mask",

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .global_stage import distinct, global_samples, sobol_candidates
 from .polish import polish
 from .problem import DEFAULT_WINDOW_EV, SearchProblem, make_problem
 
@@ -33,9 +34,7 @@ def quick_optimum(
     (numpy.ndarray, float)
         Gaps [eV] (top first) and objective value (fraction).
     """
-    from .runner import _global_samples, distinct, sobol_candidates
-
-    n = _global_samples(problem) if samples is None else samples
+    n = global_samples(problem) if samples is None else samples
     x, v = sobol_candidates(problem, n, seed)
     if len(x) == 0:
         return np.full(problem.n_junctions, np.nan), float("nan")

@@ -120,7 +120,7 @@ def parallel_coordinates_figure(result: SearchResult, feasible_only: bool = Fals
 
 def optima_table(result: SearchResult) -> pd.DataFrame:
     """Best stack and distinct alternatives (table data): ``rank``, ``gap_k_eV``,
-    objective in %, ``delta_pct`` below the best, ``certified``."""
+    objective in %, ``delta_pct`` below the best, ``local_max_check_passed``."""
     return result.optima_frame()
 
 

@@ -10,8 +10,8 @@ methods only:
    halves ``h``, from 0.02 eV down to 1e-5 eV [1]_;
 2. :func:`scipy.optimize.minimize` with ``method="Nelder-Mead"`` from the best points,
    with a 2e-3 eV initial simplex and ``xatol = 1e-6`` eV [2]_;
-3. a certificate: the stencil and 256 random points at 1e-4 eV around the result must
-   not be better (else steps 1-2 repeat from the better point).
+3. a local-maximum check: the stencil and 256 random points at 1e-4 eV around the result
+   must not be better (else steps 1-2 repeat from the better point).
 
 Infeasible points (outside a window, too closely spaced, or beyond the mismatch limit)
 score below every feasible one, so a polish started from a feasible point stays feasible.
@@ -36,8 +36,8 @@ from .problem import SearchProblem
 
 __all__ = ["PolishResult", "polish", "penalised"]
 
-#: step at which the certificate looks for a better neighbour [eV]
-CERTIFY_STEP_EV = 1e-4
+#: step at which the local-maximum check looks for a better neighbour [eV]
+LOCAL_CHECK_STEP_EV = 1e-4
 #: improvement (absolute, fraction) below which a neighbour does not count as better
 IMPROVE_TOL = 1e-10
 
@@ -56,8 +56,8 @@ class PolishResult:
         Polished objective (fraction).
     start_value : float
         Objective at the starting point.
-    certified : bool
-        No stencil or random point at 1e-4 eV is better.
+    local_max_check_passed : bool
+        The local-maximum check found no better stencil or random point at 1e-4 eV.
     evaluations : int
         Stacks evaluated for this start.
     """
@@ -66,7 +66,7 @@ class PolishResult:
     gaps_eV: np.ndarray  # noqa: N815
     value: float
     start_value: float
-    certified: bool
+    local_max_check_passed: bool
     evaluations: int
 
 
@@ -135,11 +135,11 @@ def _nelder_mead(problem, x0, which, step=2e-3):
     return res.x, -res.fun, count[0]
 
 
-def _certify(problem, x, fx, which, rng):
+def _local_max_check(problem, x, fx, which, rng):
     k = x.size
     R = rng.normal(size=(256, k))
     R /= np.linalg.norm(R, axis=1, keepdims=True)
-    cand = x + CERTIFY_STEP_EV * np.vstack([_stencil(k), R])
+    cand = x + LOCAL_CHECK_STEP_EV * np.vstack([_stencil(k), R])
     fc = penalised(problem, cand, which)
     j = int(fc.argmax())
     return (fc[j] <= fx + IMPROVE_TOL), cand[j], float(fc[j]), len(cand)
@@ -193,7 +193,7 @@ def polish(
                 ne += c
                 if fn > fx:
                     x, fx = xn, fn
-            ok, xb, fb, c = _certify(problem, x, fx, which, rng)
+            ok, xb, fb, c = _local_max_check(problem, x, fx, which, rng)
             ne += c
             if ok:
                 break

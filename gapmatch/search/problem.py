@@ -81,7 +81,8 @@ class Objective(ABC):
 
     Subclasses set :attr:`name` (a column name, e.g. ``"efficiency"``), :attr:`label`
     (axis label with unit), :attr:`scale` (factor from the value to the label's unit)
-    and implement :meth:`evaluate`. An energy-yield objective would integrate the
+    and implement :meth:`evaluate`; a slow objective declares
+    :attr:`cost_per_stack_s`. An energy-yield objective would integrate the
     stack's power over a year of spectra and temperatures in :meth:`evaluate`; the rest
     of the search does not change. Extra design variables (for example absorber
     thicknesses [m]) are reserved: :attr:`extra_variables` (``name -> (low, high)``)
@@ -94,6 +95,11 @@ class Objective(ABC):
     label: str = "objective"
     scale: float = 1.0
     extra_variables: dict[str, tuple[float, float]] = {}
+    #: declared evaluation cost per stack [s] (a nominal figure for a 2-core desktop,
+    #: never measured at run time): the search sizes its Sobol stage and its polish
+    #: from it, so one seed gives one answer under any load. Declare it for objectives
+    #: much slower than the ideal detailed-balance paths (about 1e-6 s per stack).
+    cost_per_stack_s: float = 1e-6
 
     @abstractmethod
     def evaluate(
@@ -133,6 +139,7 @@ class EfficiencyObjective(Objective):
         self.connection = connection
         self.conditions = dict(conditions)
         c = self.conditions
+        self.cost_per_stack_s = declared_cost_s(connection, c)
         self.spectrum = get_spectrum(
             c.get("spectrum", "AM1.5G"),
             spectrum_file=c.get("spectrum_file"),
@@ -163,6 +170,31 @@ class EfficiencyObjective(Objective):
         if not isinstance(c.get("spectrum", ""), str):  # a Spectrum object: its description
             c["spectrum"] = self.spectrum.describe()
         return {"name": self.name, "connection": self.connection, "conditions": c}
+
+
+#: declared cost per stack of the ideal (Boltzmann, step-absorber) paths [s]
+IDEAL_COST_S = 1e-6
+#: declared cost per stack with the Bose-Einstein dark current [s]
+BOSE_EINSTEIN_COST_S = 1.8e-4
+#: declared cost per stack of voltage matching with the automatic string ratio [s]
+AUTO_RATIO_COST_S = 7e-5
+
+
+def declared_cost_s(connection: str, conditions: dict) -> float:
+    """Declared evaluation cost per stack [s] of an efficiency objective, from its kind.
+
+    Nominal figures measured once on a 2-core desktop (``benchmarks/engine.py``), not at
+    run time: the ideal paths about 1e-6 s, voltage matching with the automatic
+    cells-per-string ratio about 7e-5 s, the Bose-Einstein dark current about
+    1.8e-4 s. A change in engine speed changes these constants, not a search's answer
+    from one run to the next.
+    """
+    cost = IDEAL_COST_S
+    if conditions.get("dark_current", "boltzmann") == "bose-einstein":
+        cost = max(cost, BOSE_EINSTEIN_COST_S)
+    if connection == "voltage-matched" and conditions.get("cells_per_string") is None:
+        cost = max(cost, AUTO_RATIO_COST_S)
+    return cost
 
 
 @dataclass

@@ -85,11 +85,12 @@ class SearchResult:
         Gaps of the best stack [eV], top first (polished to 1e-4 eV or better).
     best_value : float
         Its objective (fraction).
-    certified : bool
-        The best stack passed the 1e-4 eV neighbourhood certificate.
+    local_max_check_passed : bool
+        No better neighbour of the best stack at 1e-4 eV (the polish's local-maximum
+        check).
     alternatives : list of dict
         Other distinct local optima (at least 0.05 eV from each other in some gap), best
-        first: ``gaps_eV``, ``<objective>`` (fraction), ``certified``.
+        first: ``gaps_eV``, ``<objective>`` (fraction), ``local_max_check_passed``.
     robust_optima : list of dict
         With robustness: stacks polished for the worst-case objective (``gaps_eV``,
         ``worst_<objective>``, ``<objective>``).
@@ -111,7 +112,7 @@ class SearchResult:
     best: dict
     best_gaps_eV: np.ndarray  # noqa: N815
     best_value: float
-    certified: bool
+    local_max_check_passed: bool
     alternatives: list[dict]
     robust_optima: list[dict]
     trials: pd.DataFrame
@@ -147,12 +148,13 @@ class SearchResult:
 
     def optima_frame(self) -> pd.DataFrame:
         """Best stack and alternatives: ``rank``, ``gap_k_eV``, ``<objective>_pct``,
-        ``delta_pct`` (below the best), ``certified`` (table data for reports)."""
+        ``delta_pct`` (below the best), ``local_max_check_passed`` (table data for
+        reports)."""
         rows = [
             {
                 "gaps_eV": list(map(float, self.best_gaps_eV)),
                 self.problem.objective.name: self.best_value,
-                "certified": self.certified,
+                "local_max_check_passed": self.local_max_check_passed,
             }
         ]
         rows += self.alternatives
@@ -165,7 +167,7 @@ class SearchResult:
                 row[f"gap_{k + 1}_eV"] = g
             row[f"{name}_pct" if s == 100 else name] = s * d[name]
             row["delta_pct" if s == 100 else "delta"] = s * (d[name] - self.best_value)
-            row["certified"] = d["certified"]
+            row["local_max_check_passed"] = d["local_max_check_passed"]
             out.append(row)
         return pd.DataFrame(out)
 
@@ -191,7 +193,7 @@ class SearchResult:
             "workers": self.workers,
             "global_samples": self.global_samples,
             "best_trial_value": self.best_trial_value,
-            "certified": self.certified,
+            "local_max_check_passed": self.local_max_check_passed,
             "elapsed_s": self.elapsed_s,
         }
         return out

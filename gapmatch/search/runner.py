@@ -2,23 +2,24 @@
 
 :func:`optimise` runs the whole search for a :class:`~gapmatch.search.problem.SearchProblem`:
 
-1. **Global stage** (vectorised, fresh studies only): a scrambled Sobol sample [1]_ of
-   many thousand stacks (ordered, inside the windows) goes through the batch evaluator
-   in one call; the best distinct candidates (at least 0.05 eV apart in some gap) are
-   enqueued as the study's first trials.
-2. **optuna stage**: the sampler (TPE with optuna's constraint handling by default [2]_,
-   chosen by measurement, see DEVELOPERS.md) explores and refines. Every trial is stored;
-   infeasible trials (too closely spaced gaps, mismatch beyond the limit) are recorded
-   with their constraint values, never dropped. ``workers`` processes share the storage.
-3. **Polish**: the best distinct basins among the Sobol candidates and the trials are
-   polished to local maxima (:func:`gapmatch.search.polish.polish`) and stored as trials
-   tagged ``stage = "polish"``. Distinct polished optima are the alternatives.
+1. **Global stage** (:mod:`gapmatch.search.global_stage`): a scrambled Sobol sample of
+   many thousand stacks goes through the batch evaluator in one call; the best distinct
+   candidates (at least 0.05 eV apart in some gap) are enqueued as the study's first
+   trials, once, by the process that creates the study.
+2. **optuna stage** (:mod:`gapmatch.search.workers`): the sampler
+   (:mod:`gapmatch.search.samplers`; TPE with optuna's constraint handling by default
+   [1]_) explores and refines until the study holds its trial budget. Every trial is
+   stored (:mod:`gapmatch.search.storage`); infeasible trials are recorded with their
+   constraint values, never dropped. ``workers`` processes, or any number of processes
+   on many machines, share one study.
+3. **Polish**: the best distinct basins among the Sobol candidates and the exploration
+   trials are polished to local maxima (:func:`gapmatch.search.polish.polish`) and
+   stored once as trials tagged ``stage = "polish"``. Distinct polished optima are the
+   alternatives.
 
 References
 ----------
-.. [1] I. M. Sobol', USSR Comput. Math. Math. Phys. 7, 86 (1967); S. Joe and F. Y. Kuo,
-   SIAM J. Sci. Comput. 30, 2635 (2008) (direction numbers, as in scipy.stats.qmc).
-.. [2] T. Akiba et al., "Optuna: a next-generation hyperparameter optimization
+.. [1] T. Akiba et al., "Optuna: a next-generation hyperparameter optimization
    framework", KDD 2019; J. Bergstra et al., "Algorithms for hyper-parameter
    optimization", NeurIPS 2011 (TPE).
 """
@@ -32,44 +33,46 @@ import shlex
 import signal
 import sys
 import time
-import warnings
 from pathlib import Path
 
 import numpy as np
 import optuna
-from scipy.stats import qmc
 
 from ..errors import InputError
+from .global_stage import distinct, global_samples, is_slow, sobol_candidates
 from .polish import polish
 from .problem import SearchProblem
 from .result import SearchResult, trials_frame
+from .samplers import SAMPLERS, make_sampler
+from .storage import open_storage, open_study, quiet_optuna, shown_url, storage_url, uses_heartbeats
+from .trials import SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
+from .workers import GracefulStop, count_trials, run_trials, worker_main
 
 __all__ = [
-    "SAMPLERS",
-    "DEFAULT_STORAGE",
     "SearchInterrupted",
     "optimise",
-    "storage_url",
-    "sobol_candidates",
-    "distinct",
     "default_trials",
+    "default_study_name",
+    "run_settings",
+    "shell_join",
 ]
 
-#: sampler names accepted by :func:`optimise`
-SAMPLERS = ("tpe", "cmaes", "random", "qmc", "gp", "nsga2")
-#: default storage: an SQLite file under reports/ (relative to the working folder)
-DEFAULT_STORAGE = "reports/search/studies.db"
-#: separation that makes two optima distinct [eV] (largest gap difference)
-DISTINCT_EV = 0.05
+_global_sample_count = global_samples  # optimise()'s argument shadows the name
 
 
 class SearchInterrupted(KeyboardInterrupt):
-    """Ctrl-C during a search; completed trials are kept. ``resume`` is the command (or
-    call) that continues the study."""
+    """SIGINT (Ctrl-C) or SIGTERM during a search; completed trials are kept.
+    ``resume`` is the command (or call) that continues the study, ``signum`` the
+    signal and ``exit_code`` the shell's code for it (130, 143)."""
 
-    def __init__(self, resume: str) -> None:
+    def __init__(self, resume: str, signum: int = signal.SIGINT) -> None:
         super().__init__(resume)
         self.resume = resume
+        self.signum = int(signum)
+
+    @property
+    def exit_code(self) -> int:
+        return 128 + self.signum
 
 
 def default_trials(problem: SearchProblem) -> int:
@@ -82,314 +85,63 @@ def default_trials(problem: SearchProblem) -> int:
     return 2 * n if problem.robustness_eV is not None else n
 
 
-#: evaluation time per stack above which the polish uses 3 starts and no Nelder-Mead [s]
-SLOW_STACK_S = 100e-6
-#: time budget of the Sobol stage for slow objectives [s]
-GLOBAL_BUDGET_S = 4.0
+def run_settings(
+    *,
+    seed: int = 0,
+    sampler: str = "tpe",
+    global_samples: int | None = None,
+    n_seeds: int = 10,
+    polish_starts: int = 8,
+) -> dict:
+    """The settings besides the problem that change a search's answer (stored with the
+    study and compared when it is resumed)."""
+    return {
+        "seed": int(seed),
+        "sampler": sampler,
+        "global_samples": None if global_samples is None else int(global_samples),
+        "n_seeds": int(n_seeds),
+        "polish_starts": int(polish_starts),
+    }
 
 
-def stack_cost_s(problem: SearchProblem) -> float:
-    """Measured evaluation time per stack [s]: a probe batch of 64 ordered stacks, then
-    4096 when that was fast (a large batch amortises the per-call overhead)."""
-    lo, hi = problem.bounds_eV[:, 0], problem.bounds_eV[:, 1]
-    rng = np.random.default_rng(0)
-    per = 0.0
-    for probe in (64, 4096):
-        g = -np.sort(-(lo + rng.random((probe, problem.n_junctions)) * (hi - lo)), axis=1)
-        t = time.perf_counter()
-        problem.evaluate(g, robust=False)
-        per = (time.perf_counter() - t) / probe
-        if per > SLOW_STACK_S:
-            break
-    return per
+def default_study_name(problem: SearchProblem, **settings) -> str:
+    """``<N>J-<connection>-<spectrum>-<hash>-<sampler>-seed<S>``, plus the other
+    :func:`run_settings` where they differ from their defaults (``-g<samples>``,
+    ``-n<seeds>``, ``-p<starts>``): a run with another seed or sampler starts a study of
+    its own instead of resuming one made differently."""
+    st = run_settings(**settings)
+    name = f"{problem.default_study_name()}-{st['sampler']}-seed{st['seed']}"
+    if st["global_samples"] is not None:
+        name += f"-g{st['global_samples']}"
+    if st["n_seeds"] != 10:
+        name += f"-n{st['n_seeds']}"
+    if st["polish_starts"] != 8:
+        name += f"-p{st['polish_starts']}"
+    return name
 
 
-def _global_samples(problem: SearchProblem, per: float | None = None) -> int:
-    """Sobol sample size: 2^13 (one free gap) to 2^18 (four or more), reduced to fit
-    :data:`GLOBAL_BUDGET_S` when the objective is slow (e.g. voltage matching with the
-    automatic string ratio), never below 2^9."""
-    k = problem.n_free
-    n = 2 ** min(18, 11 + 2 * k - (k > 3) * (k - 3))
-    per = stack_cost_s(problem) if per is None else per
-    if per * 2 * n > GLOBAL_BUDGET_S:  # two sets of n points are evaluated
-        n = 2 ** max(9, int(np.log2(GLOBAL_BUDGET_S / (2 * per))))
-    return n
+def _study_seed(study, seed: int) -> int:
+    """The seed a study was made with (its Sobol stage and polish use it)."""
+    stored = study.user_attrs.get("settings") or {}
+    return int(stored.get("seed", study.user_attrs.get("seed", seed)))
 
 
-def storage_url(storage: str | Path | None) -> str | None:
-    """optuna storage URL from a user value: ``None`` -> the default SQLite file, a path
-    -> ``sqlite:///<absolute path>``, ``":memory:"`` -> in-memory (``None`` returned),
-    anything with ``://`` -> used as given (any optuna RDB URL, e.g.
-    ``postgresql://user:pw@host/db``)."""
-    if storage == ":memory:":
-        return None
-    if storage is None:
-        storage = DEFAULT_STORAGE
-    s = str(storage)
-    if "://" in s:
-        return s
-    p = Path(s).expanduser().resolve()
-    p.parent.mkdir(parents=True, exist_ok=True)
-    return f"sqlite:///{p}"
-
-
-def _sqlite_pragmas() -> None:
-    """WAL journal and normal sync for SQLite connections (many processes, fewer fsyncs)."""
-    from sqlalchemy import event
-    from sqlalchemy.engine import Engine
-
-    if getattr(_sqlite_pragmas, "done", False):
+def _check_settings(study, settings: dict, study_name: str) -> None:
+    """InputError when a stored study was made with another sampler, Sobol size, seed
+    count or polish count. The seed is apart: a process joining a named study with
+    another seed samples with its own seed (machines sharing a study each give one) and
+    uses the study's seed for the Sobol stage and the polish, and says so."""
+    stored = study.user_attrs.get("settings")
+    if stored is None:
         return
-
-    @event.listens_for(Engine, "connect")
-    def _on_connect(dbapi_conn, _record):  # pragma: no cover - trivial
-        if type(dbapi_conn).__module__.startswith("sqlite3"):
-            cur = dbapi_conn.cursor()
-            cur.execute("PRAGMA journal_mode=WAL")
-            cur.execute("PRAGMA synchronous=NORMAL")
-            cur.close()
-
-    _sqlite_pragmas.done = True
-
-
-def _storage(url: str | None):
-    if url is None:
-        return None
-    if url.startswith("sqlite"):
-        _sqlite_pragmas()
-        return optuna.storages.RDBStorage(url, engine_kwargs={"connect_args": {"timeout": 60}})
-    return optuna.storages.RDBStorage(url)
-
-
-#: optuna >= 5 stores constraints on the trial itself (``Trial.set_constraint``)
-_SET_CONSTRAINT = hasattr(optuna.trial.Trial, "set_constraint")
-
-
-def _attr(trial, key, default=None):
-    """A search attribute of a trial (stored together under user attribute ``eval``)."""
-    return trial.user_attrs.get("eval", {}).get(key, default)
-
-
-def _stage(trial) -> str:
-    return trial.user_attrs.get("stage", "sampler")
-
-
-def _constraints(trial: optuna.trial.FrozenTrial):
-    return _attr(trial, "constraints", [1.0])
-
-
-def _cfunc():
-    """``constraints_func`` for optuna < 5 (newer versions read the trial's own)."""
-    return None if _SET_CONSTRAINT else _constraints
-
-
-def make_sampler(name: str, problem: SearchProblem, seed: int | None):
-    """An optuna sampler by name (see :data:`SAMPLERS`), constraint-aware where optuna
-    supports it."""
-    multi = problem.robustness_eV is not None
-    if name == "tpe":
-        return optuna.samplers.TPESampler(
-            seed=seed, multivariate=True, constraints_func=_cfunc(), n_startup_trials=10
+    diff = [k for k in stored if k != "seed" and stored[k] != settings.get(k)]
+    if diff:
+        said = ", ".join(f"{k} {stored[k]!r} (this run: {settings.get(k)!r})" for k in diff)
+        raise InputError(
+            "study_name",
+            f"names a study made with {said}; use the same settings or another study name",
+            study_name,
         )
-    if name == "cmaes":
-        if multi:
-            raise InputError("sampler", "cmaes handles one objective only; use tpe or nsga2")
-        try:
-            import cmaes  # noqa: F401
-        except ImportError:
-            raise InputError("sampler", "cmaes needs the 'cmaes' package") from None
-        return optuna.samplers.CmaEsSampler(seed=seed, warn_independent_sampling=False)
-    if name == "random":
-        return optuna.samplers.RandomSampler(seed=seed)
-    if name == "qmc":
-        return optuna.samplers.QMCSampler(
-            seed=seed, qmc_type="sobol", scramble=True, warn_independent_sampling=False
-        )
-    if name == "gp":
-        try:
-            import torch  # noqa: F401
-        except ImportError:
-            raise InputError("sampler", "gp needs PyTorch, which is not installed") from None
-        return optuna.samplers.GPSampler(seed=seed, constraints_func=_cfunc())
-    if name == "nsga2":
-        return optuna.samplers.NSGAIISampler(seed=seed, constraints_func=_cfunc())
-    raise InputError("sampler", f"must be one of {', '.join(SAMPLERS)}", name)
-
-
-def sobol_candidates(problem: SearchProblem, n: int, seed: int) -> tuple[np.ndarray, np.ndarray]:
-    """Feasible Sobol candidates and their main objective, best first.
-
-    Half the points are sorted into decreasing order (uniform over the ordered region
-    when the windows coincide), half are used as drawn; points outside the windows or
-    violating a constraint are dropped (this stage is not stored).
-
-    Returns
-    -------
-    (numpy.ndarray, numpy.ndarray)
-        Free gaps [eV] ``(M, k)`` and objective values ``(M,)``.
-    """
-    k = problem.n_free
-    lo, hi = problem.bounds_eV[problem.free, 0], problem.bounds_eV[problem.free, 1]
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        u = qmc.Sobol(d=k, scramble=True, seed=seed).random(n)
-    raw = lo + u * (hi - lo)
-    ulo, uhi = lo.min(), hi.max()
-    s = -np.sort(-(ulo + u * (uhi - ulo)), axis=1)
-    x = np.vstack([s, raw])
-    inwin = np.all((x >= lo) & (x <= hi), axis=1)
-    x = x[inwin]
-    if len(x) == 0:
-        return np.empty((0, k)), np.empty(0)
-    ev = problem.evaluate(problem.full_gaps(x), robust=False)
-    ok = ev.feasible
-    x, v = x[ok], ev.value[ok]
-    order = np.argsort(-v)
-    return x[order], v[order]
-
-
-def distinct(x: np.ndarray, values: np.ndarray, count: int, sep: float = DISTINCT_EV) -> np.ndarray:
-    """Indices of up to ``count`` points, best first, each at least ``sep`` [eV] from the
-    others in some coordinate (greedy by value)."""
-    order = np.argsort(-np.asarray(values))
-    keep: list[int] = []
-    for i in order:
-        if not np.isfinite(values[i]):
-            continue
-        if all(np.max(np.abs(x[i] - x[j])) >= sep for j in keep):
-            keep.append(int(i))
-            if len(keep) >= count:
-                break
-    return np.array(keep, dtype=int)
-
-
-class _TrialObjective:
-    """The function optuna calls (picklable for worker processes)."""
-
-    def __init__(self, problem: SearchProblem) -> None:
-        self.problem = problem
-
-    def __call__(self, trial: optuna.Trial):
-        p = self.problem
-        x = np.array(
-            [
-                trial.suggest_float(name, float(p.bounds_eV[k, 0]), float(p.bounds_eV[k, 1]))
-                for name, k in zip(p.param_names, p.free, strict=True)
-            ]
-        )
-        ev = p.evaluate(p.full_gaps(x))
-        cons = [float(c) for c in ev.constraints[0]]
-        # one attribute write per trial (each write is a database round trip)
-        trial.set_user_attr(
-            "eval",
-            {
-                "constraints": cons,
-                "feasible": bool(ev.feasible[0]),
-                "mismatch_ratio": float(ev.mismatch_ratio[0]),
-                "worker": os.getpid(),
-            },
-        )
-        if _SET_CONSTRAINT:
-            for name, c in zip(p.constraint_names, cons, strict=True):
-                trial.set_constraint(name, c)
-        if ev.robust is not None:
-            return float(ev.value[0]), float(ev.robust[0])
-        return float(ev.value[0])
-
-
-def _open_study(problem, url, study_name, sampler_name, seed, create):
-    storage = _storage(url) if url is not None else None
-    directions = ["maximize"] * len(problem.objective_names)
-    sampler = make_sampler(sampler_name, problem, seed)
-    if create:
-        study = optuna.create_study(
-            storage=storage,
-            study_name=study_name,
-            sampler=sampler,
-            directions=directions,
-            load_if_exists=True,
-        )
-    else:
-        study = optuna.load_study(study_name=study_name, storage=storage, sampler=sampler)
-    return study
-
-
-def _worker(problem, url, study_name, sampler_name, seed, total):  # pragma: no cover - subprocess
-    optuna.logging.set_verbosity(optuna.logging.ERROR)
-    with _GracefulStop() as guard:
-        study = _open_study(problem, url, study_name, sampler_name, seed, create=False)
-        _run_trials(study, problem, total, progress=None, shared=True, guard=guard)
-
-
-class _GracefulStop:
-    """First Ctrl-C: finish the running trial, then stop (no database write is cut in
-    half). A second Ctrl-C interrupts at once."""
-
-    def __init__(self) -> None:
-        self.requested = False
-        self._old = None
-
-    def _handle(self, signum, frame):  # pragma: no cover - signal handler
-        if self.requested:
-            raise KeyboardInterrupt
-        self.requested = True
-
-    def __enter__(self):
-        try:
-            self._old = signal.signal(signal.SIGINT, self._handle)
-        except ValueError:  # not the main thread: leave Ctrl-C alone
-            self._old = None
-        return self
-
-    def __exit__(self, *exc):
-        if self._old is not None:
-            signal.signal(signal.SIGINT, self._old)
-        return False
-
-
-def _finished(study) -> int:
-    states = (optuna.trial.TrialState.COMPLETE, optuna.trial.TrialState.FAIL)
-    return sum(1 for t in study.get_trials(deepcopy=False, states=states) if _stage(t) != "polish")
-
-
-def _run_trials(study, problem, total, progress, shared=False, guard=None):
-    """Run trials until the study holds ``total`` finished exploration trials. The count
-    is kept locally and re-read from the storage every 10 trials when other workers
-    share it."""
-    obj = _TrialObjective(problem)
-    state = {"n": _finished(study), "best": _best_value(study), "since": 0}
-    if state["n"] >= total or (guard is not None and guard.requested):
-        return
-
-    def stop(study_, trial):
-        state["n"] += 1
-        state["since"] += 1
-        if (
-            trial.state == optuna.trial.TrialState.COMPLETE
-            and _attr(trial, "feasible")
-            and (state["best"] is None or trial.values[0] > state["best"])
-        ):
-            state["best"] = trial.values[0]
-        if shared and (state["since"] >= 10 or state["n"] >= total):
-            state["n"], state["since"] = _finished(study_), 0
-        if progress is not None:
-            progress.n = min(state["n"], total)
-            if state["best"] is not None:
-                progress.set_postfix_str(f"best {100 * state['best']:.3f} %", refresh=False)
-            progress.refresh()
-        if state["n"] >= total or (guard is not None and guard.requested):
-            study_.stop()
-
-    study.optimize(obj, n_trials=None, callbacks=[stop], catch=(), gc_after_trial=False)
-
-
-def _best_value(study) -> float | None:
-    vals = [
-        t.values[0]
-        for t in study.get_trials(deepcopy=False, states=(optuna.trial.TrialState.COMPLETE,))
-        if _attr(t, "feasible") and t.values
-    ]
-    return max(vals) if vals else None
 
 
 def optimise(
@@ -415,20 +167,26 @@ def optimise(
     problem : SearchProblem
         From :func:`gapmatch.search.make_problem`.
     trials : int, optional
-        Total optuna trials of the study (a resumed study runs only the missing ones);
-        default :func:`default_trials`. Polish trials are stored on top.
+        The study's trial budget: the study ends with exactly this many counted
+        exploration trials however many processes share it (a resumed study runs only
+        the missing ones); default :func:`default_trials`. Polish trials are stored on
+        top, once.
     seed : int
         Seed of the Sobol stage, the sampler (worker ``i`` uses ``seed + i``) and the
         polish. One worker and the same seed repeat a run exactly.
     storage : str or pathlib.Path, optional
-        SQLite file path, any optuna RDB URL (``postgresql://...``, ``mysql://...``), or
-        ``":memory:"`` (no persistence; one worker). Default ``reports/search/studies.db``.
+        SQLite file path, any optuna RDB URL (``postgresql+psycopg://...``,
+        ``mysql+pymysql://...``), ``journal:PATH`` (a journal file on a shared file
+        system), or ``":memory:"`` (no persistence; one worker). Default
+        ``reports/search/studies.db``. See :mod:`gapmatch.search.storage`.
     study_name : str, optional
-        Study to create or resume (default from the problem, see
-        :meth:`SearchProblem.default_study_name`). Resuming with a different problem
-        raises InputError.
+        Study to create or resume (default from the problem and the settings that
+        change the answer, see :func:`default_study_name`). Resuming a study of a
+        different problem, seed, sampler, ``global_samples``, ``n_seeds`` or
+        ``polish_starts`` raises InputError.
     workers : int
-        Processes that run trials against the shared storage (1-64).
+        Processes that run trials against the shared storage (1-64). They stop with
+        this process (SIGINT, SIGTERM, or its death).
     sampler : {"tpe", "cmaes", "random", "qmc", "gp", "nsga2"}
         optuna sampler of the trial stage (default TPE; see DEVELOPERS.md).
     global_samples : int, optional
@@ -453,13 +211,14 @@ def optimise(
     InputError
         Bad counts, sampler, storage or a study that holds a different problem.
     SearchInterrupted
-        On Ctrl-C, after the completed trials are safely stored.
+        On SIGINT (Ctrl-C) or SIGTERM, after the completed trials are safely stored.
     """
     t0 = time.perf_counter()
     if trials is None:
         trials = default_trials(problem)
     for name, v, lo, hi in (
         ("trials", trials, 0, 1_000_000),
+        ("seed", seed, 0, 2**32 - 1),
         ("workers", workers, 1, 64),
         ("n_seeds", n_seeds, 0, 1000),
         ("polish_starts", polish_starts, 1, 100),
@@ -476,41 +235,103 @@ def optimise(
             "more than one worker needs a storage (SQLite file or database URL), not ':memory:'",
             workers,
         )
-    study_name = study_name or problem.default_study_name()
-    optuna.logging.set_verbosity(optuna.logging.ERROR)
-    study = _open_study(problem, url, study_name, sampler, seed, create=True)
-    desc = json.dumps(problem.describe(), sort_keys=True, default=str)
-    stored = study.user_attrs.get("problem")
-    if stored is None:
-        study.set_user_attr("problem", desc)
-        study.set_user_attr("seed", int(seed))
-    elif stored != desc:
-        raise InputError(
-            "study_name",
-            "names a study of a different problem; choose another --study-name or the same problem",
-            study_name,
+    settings = run_settings(
+        seed=seed,
+        sampler=sampler,
+        global_samples=global_samples,
+        n_seeds=n_seeds,
+        polish_starts=polish_starts,
+    )
+    study_name = study_name or default_study_name(problem, **settings)
+    with quiet_optuna():
+        return _optimise(
+            problem,
+            trials=int(trials),
+            seed=int(seed),
+            url=url,
+            study_name=study_name,
+            workers=int(workers),
+            sampler=sampler,
+            n_global=_global_sample_count(problem)
+            if global_samples is None
+            else int(global_samples),
+            n_seeds=n_seeds,
+            polish_starts=polish_starts,
+            alternatives=alternatives,
+            progress=progress,
+            resume_command=resume_command,
+            settings=settings,
+            t0=t0,
         )
-    seed0 = int(study.user_attrs.get("seed", seed))
-    resumed = len(study.trials) > 0
 
-    # 1. global stage (deterministic from the study's seed: recomputed on resume)
-    per = stack_cost_s(problem)
-    slow = per > SLOW_STACK_S
-    ng = _global_samples(problem, per) if global_samples is None else int(global_samples)
+
+def _optimise(
+    problem: SearchProblem,
+    *,
+    trials: int,
+    seed: int,
+    url: str | None,
+    study_name: str,
+    workers: int,
+    sampler: str,
+    n_global: int,
+    n_seeds: int,
+    polish_starts: int,
+    alternatives: int,
+    progress: bool,
+    resume_command: str | None,
+    settings: dict,
+    t0: float,
+) -> SearchResult:
+    # 1. global stage (deterministic from the problem and the seed: recomputed on resume)
+    slow = is_slow(problem)
     gx, gv = (
-        sobol_candidates(problem, ng, seed0)
-        if ng > 0
+        sobol_candidates(problem, n_global, seed)
+        if n_global > 0
         else (np.empty((0, problem.n_free)), np.empty(0))
     )
     seeds = distinct(gx, gv, n_seeds) if len(gx) else np.empty(0, dtype=int)
-    if not resumed:
+    desc = json.dumps(problem.describe(), sort_keys=True, default=str)
+
+    def setup(study: optuna.Study) -> None:
         for i in seeds:
             study.enqueue_trial(
                 dict(zip(problem.param_names, map(float, gx[i]), strict=True)),
                 user_attrs={"stage": "sobol"},
             )
+        study.set_user_attr("settings", settings)
+        study.set_user_attr("problem", desc)  # last: the study is ready for others
 
-    # 2. optuna trials
+    study, created = open_study(
+        open_storage(url),
+        study_name,
+        directions=["maximize"] * len(problem.objective_names),
+        sampler=make_sampler(sampler, problem, seed),
+        setup=setup,
+    )
+    if not created:
+        if study.user_attrs.get("problem") != desc:
+            raise InputError(
+                "study_name",
+                "names a study of a different problem; choose another --study-name or the "
+                "same problem",
+                study_name,
+            )
+        _check_settings(study, settings, study_name)
+        seed0 = _study_seed(study, seed)
+        if seed0 != seed:
+            print(
+                f"note: study {study_name!r} was made with seed {seed0}: its Sobol stage and "
+                f"polish use seed {seed0}, this process's sampler seed {seed}",
+                file=sys.stderr,
+            )
+            seed = seed0
+            if n_global > 0:
+                gx, gv = sobol_candidates(problem, n_global, seed)
+    resumed = not created
+    tag = not uses_heartbeats(url)  # SQLite and journal files: host:pid on each trial
+
+    # 2. optuna trials, until the study holds its budget
     if resume_command is None:
         resume_command = (
             f"gapmatch.search.optimise(problem, storage={url or ':memory:'!r}, "
@@ -518,7 +339,7 @@ def optimise(
         )
     procs: list = []
     bar = None
-    guard = _GracefulStop()
+    guard = GracefulStop()
     try:
         with guard:
             if progress:
@@ -526,81 +347,68 @@ def optimise(
 
                 bar = tqdm(
                     total=trials,
-                    initial=min(_finished(study), trials),
+                    initial=min(count_trials(study).counted, trials),
                     desc="trials",
                     file=sys.stderr,
                     unit="trial",
                     dynamic_ncols=True,
                 )
+            run = dict(guard=guard, progress=bar, tag_worker=tag)
             if workers > 1:
-                # the enqueued Sobol seeds run here first: several processes popping the
-                # same waiting trial from SQLite can collide
-                waiting = len(
-                    study.get_trials(deepcopy=False, states=(optuna.trial.TrialState.WAITING,))
+                # the enqueued Sobol seeds run here first, then every worker is a process
+                # of its own and this one watches the storage
+                run_trials(study, problem, trials, only_waiting=True, **run)
+                procs = _start_workers(
+                    problem, url, study_name, sampler, seed, trials, workers, guard
                 )
-                if waiting:
-                    _run_trials(
-                        study, problem, min(trials, _finished(study) + waiting), bar, guard=guard
-                    )
-                # then every worker is a process of its own; this one watches the storage
-                ctx = mp.get_context("spawn")
-                for i in range(workers if not guard.requested else 0):
-                    pr = ctx.Process(
-                        target=_worker,
-                        daemon=True,
-                        args=(problem, url, study_name, sampler, seed + i, trials),
-                    )
-                    pr.start()
-                    procs.append(pr)
-                told = False
-                while any(pr.is_alive() for pr in procs):
-                    time.sleep(0.5)
-                    if guard.requested and not told:  # pass Ctrl-C on to our workers
-                        for pr in procs:
-                            if pr.is_alive() and pr.pid is not None:
-                                os.kill(pr.pid, signal.SIGINT)
-                        told = True
-                    if bar is not None:
-                        bar.n = min(_finished(study), trials)
-                        best = _best_value(study)
-                        if best is not None:
-                            bar.set_postfix_str(f"best {100 * best:.3f} %", refresh=False)
-                        bar.refresh()
-                for pr in procs:
-                    pr.join()
-                if not guard.requested and any(pr.exitcode != 0 for pr in procs):
-                    raise RuntimeError("a search worker process failed; see its message above")
+                _watch(procs, study, trials, guard, bar)
+                if not guard.requested:
+                    bad = [pr.exitcode for pr in procs if pr.exitcode != 0]
+                    if bad:
+                        print(
+                            f"note: {len(bad)} worker process(es) ended with exit code(s) "
+                            f"{', '.join(map(str, bad))}; the remaining trials run here",
+                            file=sys.stderr,
+                        )
+                    run_trials(study, problem, trials, **run)
             else:
-                _run_trials(study, problem, trials, bar, guard=guard)
-        interrupted = guard.requested
-    except KeyboardInterrupt:  # a second Ctrl-C
+                run_trials(study, problem, trials, **run)
+        interrupted, signum = guard.requested, guard.signum or signal.SIGINT
+    except KeyboardInterrupt:  # a second signal: stop the workers outright (their running
+        # trials are failed by the heartbeat rule and retried on resume)
         for pr in procs:
             if pr.is_alive():
-                pr.terminate()
+                pr.kill()
                 pr.join(5)
-        interrupted = True
+        interrupted, signum = True, guard.signum or signal.SIGINT
     finally:
         if bar is not None:
             bar.close()
     if interrupted:
         try:
-            done = f"{_finished(study)} trials are"
+            done = f"{count_trials(study).counted} trials are"
         except Exception:  # noqa: BLE001 - the count is only informative
             done = "the completed trials are"
         print(
-            f"\ninterrupted: {done} stored in {url or 'memory'} (study {study_name!r}). "
-            f"Resume with:\n  {resume_command}",
+            f"\ninterrupted ({signal.Signals(signum).name}): {done} stored in "
+            f"{shown_url(url)} (study {study_name!r}). Resume with:\n  {resume_command}",
             file=sys.stderr,
         )
-        raise SearchInterrupted(resume_command)
+        raise SearchInterrupted(resume_command, signum)
 
-    # 3. polish the best distinct basins of the Sobol candidates and the trials
+    # 3. polish the best distinct basins of the Sobol candidates and the exploration
+    #    trials (polish trials of earlier runs are not starting points: a rerun of a
+    #    finished study polishes the same points and stores nothing new)
     all_trials = study.get_trials(deepcopy=False)
-    tx, tv = [], []
-    for t in all_trials:
-        if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible"):
-            tx.append([t.params[nm] for nm in problem.param_names])
-            tv.append(t.values[0])
+    explored = [
+        t
+        for t in all_trials
+        if t.state == optuna.trial.TrialState.COMPLETE
+        and trial_stage(t) not in UNCOUNTED_STAGES
+        and trial_attr(t, "feasible")
+    ]
+    tx = [[t.params[nm] for nm in problem.param_names] for t in explored]
+    tv = [t.values[0] for t in explored]
     cx = np.vstack([gx[: 50 * polish_starts], np.array(tx).reshape(-1, problem.n_free)])
     cv = np.concatenate([gv[: 50 * polish_starts], np.array(tv)])
     best_trial = float(np.max(tv)) if tv else float("nan")
@@ -611,23 +419,12 @@ def optimise(
     starts = distinct(cx, cv, polish_starts)
     if slow:  # e.g. voltage matching with the automatic ratio: fewer, cheaper starts
         starts = starts[:3]
-    pol = polish(problem, cx[starts], seed=seed0, nelder_mead=0 if slow else 3)
+    pol = polish(problem, cx[starts], seed=seed, nelder_mead=0 if slow else 3)
     robust_pol = []
-    if problem.robustness_eV is not None:
-        rx = [
-            [t.params[nm] for nm in problem.param_names]
-            for t in all_trials
-            if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible")
-        ]
-        rv = [
-            t.values[1]
-            for t in all_trials
-            if t.state == optuna.trial.TrialState.COMPLETE and _attr(t, "feasible")
-        ]
-        if rx:
-            rx = np.array(rx)
-            ri = distinct(rx, np.array(rv), 3)
-            robust_pol = polish(problem, rx[ri], which=1, seed=seed0, nelder_mead=1)
+    if problem.robustness_eV is not None and explored:
+        rx = np.array(tx)
+        ri = distinct(rx, np.array([t.values[1] for t in explored]), 3)
+        robust_pol = polish(problem, rx[ri], which=1, seed=seed, nelder_mead=1)
     _store_polished(study, problem, pol + robust_pol)
 
     # distinct polished optima, best first
@@ -641,16 +438,16 @@ def optimise(
     return SearchResult(
         problem=problem,
         study_name=study_name,
-        storage=url or ":memory:",
+        storage=shown_url(url) if url is not None else ":memory:",
         best=full,
         best_gaps_eV=best.gaps_eV.copy(),
         best_value=best.value,
-        certified=best.certified,
+        local_max_check_passed=best.local_max_check_passed,
         alternatives=[
             {
                 "gaps_eV": [float(g) for g in r.gaps_eV],
                 problem.objective.name: float(r.value),
-                "certified": r.certified,
+                "local_max_check_passed": r.local_max_check_passed,
             }
             for r in alts
         ],
@@ -664,36 +461,81 @@ def optimise(
         ],
         trials=frame,
         best_trial_value=best_trial,
-        n_trials=_finished(study),
+        n_trials=count_trials(study).counted,
         resumed=resumed,
-        seed=seed0,
+        seed=seed,
         sampler=sampler,
         workers=workers,
-        global_samples=ng,
+        global_samples=n_global,
         elapsed_s=time.perf_counter() - t0,
     )
 
 
+def _start_workers(problem, url, study_name, sampler, seed, trials, workers, guard) -> list:
+    """Worker processes (spawned; worker ``i`` samples with ``seed + i``). Each stops
+    when this process dies (see :func:`gapmatch.search.workers.worker_main`)."""
+    ctx = mp.get_context("spawn")
+    procs = []
+    for i in range(workers if not guard.requested else 0):
+        pr = ctx.Process(
+            target=worker_main,
+            daemon=True,
+            args=(problem, url, study_name, sampler, seed + i, trials, os.getpid()),
+        )
+        pr.start()
+        procs.append(pr)
+    return procs
+
+
+def _watch(procs, study, trials, guard, bar) -> None:
+    """Wait for the workers; pass a stop request (SIGINT or SIGTERM) on to them."""
+    told = False
+    while any(pr.is_alive() for pr in procs):
+        time.sleep(0.5)
+        if guard.requested and not told:
+            for pr in procs:
+                if pr.is_alive() and pr.pid is not None:
+                    os.kill(pr.pid, signal.SIGTERM)
+            told = True
+        if bar is not None:
+            c = count_trials(study)
+            bar.n = min(c.counted, trials)
+            if c.best is not None:
+                bar.set_postfix_str(f"best {100 * c.best:.3f} %", refresh=False)
+            bar.refresh()
+    for pr in procs:
+        pr.join()
+
+
 def _store_polished(study, problem, results) -> None:
+    """Store polished optima as trials (``stage = "polish"``), each point once."""
     dists = {
         nm: optuna.distributions.FloatDistribution(
             float(problem.bounds_eV[k, 0]), float(problem.bounds_eV[k, 1])
         )
         for nm, k in zip(problem.param_names, problem.free, strict=True)
     }
+
+    def key(params: dict) -> tuple:
+        return tuple(round(float(params[nm]), 12) for nm in problem.param_names)
+
+    stored = {key(t.params) for t in study.get_trials(deepcopy=False) if trial_stage(t) == "polish"}
     for r in results:
+        params = {
+            nm: float(np.clip(r.x_eV[i], dists[nm].low, dists[nm].high))
+            for i, nm in enumerate(problem.param_names)
+        }
+        if key(params) in stored:  # a rerun of a finished study: polished already
+            continue
+        stored.add(key(params))
         ev = problem.evaluate(r.gaps_eV[None])
         values = [float(ev.value[0])]
         if ev.robust is not None:
             values.append(float(ev.robust[0]))
         cons = [float(c) for c in ev.constraints[0]]
-        params = {
-            nm: float(np.clip(r.x_eV[i], dists[nm].low, dists[nm].high))
-            for i, nm in enumerate(problem.param_names)
-        }
         kw = (
             dict(constraints=dict(zip(problem.constraint_names, cons, strict=True)))
-            if _SET_CONSTRAINT
+            if SET_CONSTRAINT
             else dict(system_attrs={"constraints": cons})
         )
         study.add_trial(
@@ -703,7 +545,7 @@ def _store_polished(study, problem, results) -> None:
                 distributions=dists,
                 user_attrs={
                     "stage": "polish",
-                    "certified": r.certified,
+                    "local_max_check_passed": r.local_max_check_passed,
                     "eval": {
                         "constraints": cons,
                         "feasible": bool(ev.feasible[0]),
