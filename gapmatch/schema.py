@@ -243,8 +243,9 @@ class Table(Field):
             else:
                 d = spec.default
                 d = d() if callable(d) else d
-                # an omitted table gets every default of its own keys
-                out[key] = spec.check(d, kp) if isinstance(spec, Table) else d
+                # an omitted table gets every default of its own keys (a table whose
+                # default is None stays absent: None)
+                out[key] = spec.check(d, kp) if isinstance(spec, Table) and d is not None else d
         return out
 
 

@@ -19,6 +19,17 @@ Minimal example::
     name = "candidate A"
     gaps_eV = [1.72, 1.12]
 
+An optional ``[site]`` table (:class:`Site`) gives the weather file and collector plane
+for energy yield at a site::
+
+    [site]
+    weather = "weather/my-site.epw"   # relative to the study file; "pvlib:NAME" = pvlib sample
+    tilt_deg = 30.0
+    azimuth_deg = 180.0               # 180 = south
+    tracking = "fixed"                # or "single-axis"
+    temperature_model = "sapm"        # sapm, faiman or fixed
+    mounting = "open_rack_glass_glass"
+
 Other features add their own tables with :func:`register_table` (schema objects of
 :mod:`gapmatch.schema`: :class:`Table`, :class:`Num`, :class:`Int`, :class:`Str`,
 :class:`Choice`, :class:`List`, :class:`Records`); their validated content is in
@@ -38,6 +49,10 @@ from pathlib import Path
 from .core.diodes import DARK_MODELS
 from .core.registry import CONNECTIONS
 from .core.spectra import MAX_CONCENTRATION
+from .energy.celltemp import CELL_TEMPERATURE_MODELS, SAPM_MOUNTINGS, CellTemperature
+from .energy.geometry import TRACKING
+from .energy.readers import WEATHER_FORMATS
+from .energy.spectra import TRANSPOSITION_MODELS
 from .errors import InputError
 from .io.spectra import SPECTRUM_CHOICES
 from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, TEMPERATURE_RANGE_K, check_gaps
@@ -48,6 +63,9 @@ __all__ = [
     "Study",
     "Material",
     "StackOfInterest",
+    "Site",
+    "SITE_TABLE",
+    "PVLIB_DATA_PREFIX",
     "load_study",
     "parse_study",
     "register_table",
@@ -68,6 +86,39 @@ __all__ = [
 # ---- the study schema ---------------------------------------------------------------------
 _GAP = Num(*GAP_RANGE_EV, "eV")
 _NAME = Str(min_len=1, max_len=120)
+
+#: ``weather = "pvlib:NAME"`` names a file of pvlib's data folder (its sample weather files)
+PVLIB_DATA_PREFIX = "pvlib:"
+
+#: ``[site]``: where the stack works, for energy yield (optional; see :class:`Site`)
+SITE_TABLE = Table(
+    {
+        "weather": Str(
+            min_len=1,
+            max_len=1000,
+            doc="weather file (TMY3, TMY2, EPW or plain CSV), relative to the study file; "
+            "'pvlib:723170TYA.CSV' names a sample file pvlib ships",
+        ),
+        "weather_format": Choice(WEATHER_FORMATS, default=None, doc="default: from the file"),
+        "tilt_deg": Num(0.0, 90.0, "deg", default=30.0, doc="fixed plane tilt"),
+        "azimuth_deg": Num(
+            0.0, 360.0, "deg", default=180.0, doc="plane (or tracker axis) azimuth, 180 = south"
+        ),
+        "tracking": Choice(TRACKING, default="fixed"),
+        "albedo": Num(0.0, 1.0, default=None, doc="ground albedo; default the file's, else 0.2"),
+        "temperature_model": Choice(CELL_TEMPERATURE_MODELS, default="sapm"),
+        "mounting": Choice(SAPM_MOUNTINGS, default="open_rack_glass_glass", doc="SAPM preset"),
+        "fixed_temperature_K": Num(200.0, 400.0, "K", default=298.15, doc="model 'fixed' only"),
+        "transposition": Choice(TRANSPOSITION_MODELS, default="haydavies"),
+        "latitude_deg": Num(-90.0, 90.0, "deg", default=None, doc="overrides the file's"),
+        "longitude_deg": Num(-180.0, 180.0, "deg", default=None, doc="east positive"),
+        "altitude_m": Num(-500.0, 9000.0, "m", default=None, doc="overrides the file's"),
+        "map_top_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [1.4, 2.2]),
+        "map_bottom_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [0.7, 1.4]),
+        "map_step_eV": Num(0.01, 0.2, "eV", default=0.05, doc="annual-energy map grid step"),
+    },
+    default=None,
+)
 
 STUDY_SCHEMA = Table(
     {
@@ -168,8 +219,10 @@ STUDY_SCHEMA = Table(
             ),
             max_len=50,
         ),
+        "site": SITE_TABLE,
     }
 )
+
 
 #: tables added by other features (name -> Table); validated content in ``Study.extra``
 EXTRA_TABLES: dict[str, Table] = {}
@@ -263,6 +316,89 @@ class StackOfInterest:
     note: str = ""
 
 
+@dataclass(frozen=True)
+class Site:
+    """The study's ``[site]``: weather file, collector plane and cell temperature model.
+
+    Attributes
+    ----------
+    weather : str
+        Weather file path (resolved: relative paths against the study file's folder,
+        ``pvlib:NAME`` against pvlib's data folder).
+    weather_format : str or None
+        Reader (``tmy3``, ``tmy2``, ``epw``, ``csv``); None: from the file.
+    tilt_deg, azimuth_deg : float
+        Plane tilt [deg, 0-90] and azimuth [deg, 0-360, 180 = south] (for
+        ``single-axis`` tracking the azimuth is the axis's).
+    tracking : str
+        ``fixed`` or ``single-axis``.
+    albedo : float or None
+        Ground albedo (None: the file's, else the stated default).
+    temperature_model, mounting : str
+        pvlib cell temperature model and SAPM mounting preset.
+    fixed_temperature_K : float
+        Cell temperature [K] of the ``fixed`` model.
+    transposition : str
+        Sky-diffuse transposition model.
+    latitude_deg, longitude_deg, altitude_m : float or None
+        Location overrides [deg, deg, m].
+    map_top_eV, map_bottom_eV : (float, float)
+        Ranges of the annual-energy map [eV].
+    map_step_eV : float
+        Its grid step [eV].
+    given : str
+        The ``weather`` value as the study file wrote it.
+    """
+
+    weather: str
+    weather_format: str | None = None
+    tilt_deg: float = 30.0
+    azimuth_deg: float = 180.0
+    tracking: str = "fixed"
+    albedo: float | None = None
+    temperature_model: str = "sapm"
+    mounting: str = "open_rack_glass_glass"
+    fixed_temperature_K: float = 298.15  # noqa: N815
+    transposition: str = "haydavies"
+    latitude_deg: float | None = None
+    longitude_deg: float | None = None
+    altitude_m: float | None = None
+    map_top_eV: tuple[float, float] = (1.4, 2.2)  # noqa: N815
+    map_bottom_eV: tuple[float, float] = (0.7, 1.4)  # noqa: N815
+    map_step_eV: float = 0.05  # noqa: N815
+    given: str = ""
+
+    def spectra_options(self) -> dict:
+        """Keyword arguments of :func:`gapmatch.energy.site_spectra` (after the weather)."""
+        return dict(
+            tilt_deg=self.tilt_deg,
+            azimuth_deg=self.azimuth_deg,
+            tracking=self.tracking,
+            albedo=self.albedo,
+            transposition=self.transposition,
+            latitude=self.latitude_deg,
+            longitude=self.longitude_deg,
+            altitude_m=self.altitude_m,
+            weather_format=self.weather_format,
+        )
+
+    def yield_options(self) -> dict:
+        """Keyword arguments of :func:`gapmatch.energy.annual_yield` (after weather,
+        gaps and connection): the plane and the cell temperature model."""
+        return dict(
+            self.spectra_options(),
+            temperature_model=self.temperature_model,
+            mounting=self.mounting,
+            fixed_temperature_K=self.fixed_temperature_K,
+        )
+
+    def cell_temperature(self) -> CellTemperature:
+        """The cell temperature model (for :func:`gapmatch.energy.yield_from_spectra`)."""
+        return CellTemperature(
+            self.temperature_model, self.mounting, fixed_K=self.fixed_temperature_K
+        )
+
+
 @dataclass
 class Study:
     """A validated study file.
@@ -286,6 +422,8 @@ class Study:
     stacks : list of StackOfInterest
     extra : dict
         Validated tables added with :func:`register_table`.
+    site : Site or None
+        The ``[site]`` table (energy yield), if the study has one.
     path : pathlib.Path or None
         The study file.
     sha256 : str
@@ -305,6 +443,7 @@ class Study:
     materials: list[Material]
     stacks: list[StackOfInterest]
     extra: dict = field(default_factory=dict)
+    site: Site | None = None
     path: Path | None = None
     sha256: str = ""
 
@@ -545,6 +684,7 @@ def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
         names.add(sd["name"])
         stacks.append(StackOfInterest(sd["name"], tuple(sd["gaps_eV"]), sd["note"]))
 
+    site = _site(v["site"], base_dir) if v["site"] is not None else None
     extra = {k: v[k] for k in EXTRA_TABLES if k in v}
     return Study(
         name=s["name"],
@@ -560,5 +700,68 @@ def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
         materials=mats,
         stacks=stacks,
         extra=extra,
+        site=site,
         sha256=hashlib.sha256(raw).hexdigest(),
+    )
+
+
+def _site(sd: dict, base_dir: Path | None) -> Site:
+    given = sd["weather"]
+    if given.startswith(PVLIB_DATA_PREFIX):
+        import pvlib
+
+        name = given[len(PVLIB_DATA_PREFIX) :]
+        f = Path(pvlib.__file__).parent / "data" / name
+        where = "pvlib's data folder"
+    else:
+        f = Path(given)
+        if not f.is_absolute() and base_dir is not None:
+            f = base_dir / f
+        where = "paths are relative to the study file"
+    if not f.is_file():
+        raise InputError("site.weather", f"file not found ({where})", given)
+    for key in ("map_top_eV", "map_bottom_eV"):
+        lo, hi = sd[key]
+        if hi <= lo:
+            raise InputError(f"site.{key}", "needs the first gap below the last one [eV]", sd[key])
+    if sd["map_top_eV"][1] <= sd["map_bottom_eV"][0]:
+        raise InputError(
+            "site.map_top_eV",
+            "must reach above the lowest bottom gap (site.map_bottom_eV) [eV]",
+            sd["map_top_eV"],
+        )
+    if sd["tracking"] == "single-axis" and sd["tilt_deg"] != 30.0:
+        raise InputError(
+            "site.tilt_deg",
+            "applies to tracking 'fixed' only (a single-axis tracker sets its own tilt)",
+            sd["tilt_deg"],
+        )
+    if sd["temperature_model"] != "fixed" and sd["fixed_temperature_K"] != 298.15:
+        raise InputError(
+            "site.fixed_temperature_K",
+            "applies to temperature_model 'fixed' only",
+            sd["fixed_temperature_K"],
+        )
+    if sd["temperature_model"] != "sapm" and sd["mounting"] != "open_rack_glass_glass":
+        raise InputError(
+            "site.mounting", "applies to temperature_model 'sapm' only", sd["mounting"]
+        )
+    return Site(
+        weather=str(f),
+        weather_format=sd["weather_format"],
+        tilt_deg=sd["tilt_deg"],
+        azimuth_deg=sd["azimuth_deg"],
+        tracking=sd["tracking"],
+        albedo=sd["albedo"],
+        temperature_model=sd["temperature_model"],
+        mounting=sd["mounting"],
+        fixed_temperature_K=sd["fixed_temperature_K"],
+        transposition=sd["transposition"],
+        latitude_deg=sd["latitude_deg"],
+        longitude_deg=sd["longitude_deg"],
+        altitude_m=sd["altitude_m"],
+        map_top_eV=tuple(sd["map_top_eV"]),
+        map_bottom_eV=tuple(sd["map_bottom_eV"]),
+        map_step_eV=sd["map_step_eV"],
+        given=given,
     )

@@ -12,7 +12,7 @@ modules beside it (the built-in sections), :mod:`.figures` and :mod:`.loss_figur
 
 from __future__ import annotations
 
-from . import physics_sections, search_section, sections  # noqa: F401  (register sections)
+from . import energy_sections, physics_sections, search_section, sections  # noqa: F401
 from .builder import Report, build_report, render_page, write_report
 from .context import ReportContext
 from .html import esc, para, table
