@@ -47,6 +47,9 @@ def test_files_written(demo):
             f"{NAME}_losses_independent.csv",
             f"{NAME}_search_trials.csv",
             f"{NAME}_search_optima.csv",
+            f"{NAME}_site_energy.csv",
+            f"{NAME}_site_monthly.csv",
+            f"{NAME}_site_map.csv",
         ]
     )
     assert not [n for n in names if n.endswith(".tmp")]  # atomic writes leave no temporaries
