@@ -143,7 +143,8 @@ def evaluate(
     temperature_K : float or array_like
         Cell temperature [K], 100-1000, scalar or one per junction.
     ere : float or array_like
-        External radiative efficiency, in (0, 1], scalar or one per junction.
+        External radiative efficiency in [1e-12, 1] (``limits.ERE_RANGE``), scalar or one
+        per junction.
     dark_current : {"boltzmann", "bose-einstein"}
         Form of the radiative dark current.
     cells_per_string : sequence of int, optional
@@ -382,7 +383,7 @@ def solve_series(
         Cell temperature [K], 100-1000: one value, one per illumination ``(H,)``, or one
         per illumination and junction ``(H, N)``.
     ere : float or array_like
-        External radiative efficiency in (0, 1], one value or one per junction.
+        External radiative efficiency in [1e-12, 1], one value or one per junction.
     dark_current : {"boltzmann", "bose-einstein"}
         Form of the radiative dark current.
 

@@ -21,7 +21,7 @@ from .core.spectra import Spectrum
 from .errors import InputError, check_finite_array, check_range
 from .limits import GAP_RANGE_EV, per_junction, per_junction_names
 from .model import NonIdealPhysics
-from .units import EV, mev_to_j, nm_to_m, ohm_cm2_to_ohm_m2, per_cm_to_per_m
+from .units import EV, ev_to_nm, j_to_ev, mev_to_j, nm_to_m, ohm_cm2_to_ohm_m2, per_cm_to_per_m
 
 __all__ = ["PHYSICS_DEFAULTS", "build_physics"]
 
@@ -111,11 +111,32 @@ def _absorbers(g, dark_current, models, eu, thickness_nm, alpha0_per_cm, alpha_f
             from .io.absorption import read_alpha_csv
 
             absorbers[k] = read_alpha_csv(files[k])
+            _check_table_reaches_gap(absorbers[k], float(np.min(g[:, k])), k, files[k])
             continue
         alpha0 = DEFAULT_ALPHA0_PER_CM[models[k]] if a0 is None else float(a0[k])
         cls = DirectGapAbsorption if models[k] == "direct" else IndirectGapAbsorption
         absorbers[k] = cls(float(per_cm_to_per_m(alpha0)), float(mev_to_j(float(eub[k]))))
     return finite, absorbers, thick
+
+
+def _check_table_reaches_gap(table, gap_eV: float, k: int, path) -> None:
+    """Refuse an absorption table whose first row lies above the junction's gap.
+
+    Below its first row the table gives alpha = 0, so a table starting above the gap
+    silently turns the junction into a wider-gap cell (a 1.3 eV junction with a table
+    from 1.5 eV showed a V_oc of 2.7 V). The table is not extended: it must reach the gap.
+    """
+    start_eV = float(j_to_ev(table.energy_J[0]))
+    # 1e-6 eV: rounding of a table row written at the gap's own wavelength
+    if start_eV > gap_eV + 1e-6:
+        raise InputError(
+            "alpha_file",
+            f"the absorption table of junction {k + 1} starts at {start_eV:.4g} eV "
+            f"({float(ev_to_nm(start_eV)):.1f} nm), above the junction's gap {gap_eV:.4g} eV; "
+            "it must cover the gap (below its first row alpha is 0, which would make "
+            "a wider-gap cell): add rows down to the gap's wavelength or longer",
+            str(path),
+        )
 
 
 def _coupling(coupling_fraction, connection, dark_current, n):

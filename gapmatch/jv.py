@@ -13,6 +13,7 @@ import numpy as np
 from .core.diodes import make_diodes
 from .core.engine import step_photocurrents
 from .errors import InputError
+from .limits import check_cell_conditions, check_gaps
 from .results import BatchResult
 from .units import EV, K_B, Q, a_m2_to_ma_cm2
 
@@ -43,8 +44,10 @@ def jv_curve(result: BatchResult, i: int = 0, *, points: int = 200) -> dict:
     Raises
     ------
     InputError
-        For an index outside the batch, a result without its model objects, or a
-        luminescently coupled stack (whose junction curves depend on each other).
+        For something other than a result, an index outside the batch, ``points``
+        outside 2-100,000, a result without its model objects, cell conditions outside
+        the ranges :func:`gapmatch.evaluate` accepts, or a luminescently coupled stack
+        (whose junction curves depend on each other).
 
     Notes
     -----
@@ -58,13 +61,21 @@ def jv_curve(result: BatchResult, i: int = 0, *, points: int = 200) -> dict:
     ----------
     .. [1] W. Shockley and H. J. Queisser, J. Appl. Phys. 32, 510 (1961).
     """
-    if not isinstance(i, int | np.integer) or not 0 <= i < len(result):
+    if not isinstance(result, BatchResult):
+        raise InputError(
+            "result", "must be a result of gapmatch.evaluate or gapmatch.api.solve", type(result)
+        )
+    whole = (int, np.integer)
+    if isinstance(i, bool) or not isinstance(i, whole) or not 0 <= i < len(result):
         raise InputError("i", f"must be a stack index in [0, {len(result) - 1}]", i)
-    if not isinstance(points, int | np.integer) or not 2 <= points <= 100_000:
+    if isinstance(points, bool) or not isinstance(points, whole) or not 2 <= points <= 100_000:
         raise InputError("points", "must be a whole number in [2, 100000]", points)
     stack, illum, cell = result.stack_model, result.illumination, result.cell
     if stack is None or illum is None or cell is None:
         raise InputError("result", "carries no model objects (build it with gapmatch.evaluate)")
+    # the same checks as evaluate: a hand-built CellConditions is not validated on its own
+    check_gaps(stack.gaps_eV[i : i + 1], require_descending=False)
+    check_cell_conditions(stack.n_junctions, cell.temperature_K, cell.ere, cell.dark_current)
     if stack.physics is not None:
         return _nonideal(result, i, points)
     t, e, model = cell.temperature_K, cell.ere, cell.dark_current

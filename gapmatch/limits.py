@@ -16,6 +16,7 @@ from .errors import InputError, check_finite_array, check_range
 __all__ = [
     "GAP_RANGE_EV",
     "TEMPERATURE_RANGE_K",
+    "ERE_RANGE",
     "MAX_JUNCTIONS",
     "MAX_MAP_POINTS",
     "check_gaps",
@@ -28,6 +29,13 @@ __all__ = [
 GAP_RANGE_EV = (0.1, 5.0)
 #: allowed cell temperatures [K]
 TEMPERATURE_RANGE_K = (100.0, 1000.0)
+#: allowed external radiative efficiency (fraction). The lower bound is physical, not
+#: numerical: ERE lowers V_oc by (kT/q) ln(1/ERE), 0.72 V at 300 K for 1e-12, more than
+#: the V_oc of the poorest cells ever reported (ERE near 1e-8 to 1e-6 for amorphous and
+#: organic absorbers, from memory), so a smaller value describes no real junction. It
+#: also keeps J0/ERE and exp(qV/kT) far from the float64 limits (a subnormal ERE such as
+#: 5e-324 made J0/ERE infinite and the efficiency NaN).
+ERE_RANGE = (1e-12, 1.0)
 #: largest number of junctions in a stack
 MAX_JUNCTIONS = 6
 #: largest number of grid points of one map
@@ -139,7 +147,8 @@ def check_cell_conditions(n: int, temperature_K, ere, dark_current: str):
     temperature_K : float or array_like
         Cell temperature [K], 100-1000, scalar or one per junction.
     ere : float or array_like
-        External radiative efficiency in (0, 1], scalar or one per junction.
+        External radiative efficiency in [1e-12, 1] (:data:`ERE_RANGE`), scalar or one
+        per junction.
     dark_current : str
         One of :data:`gapmatch.core.diodes.DARK_MODELS`.
 
@@ -156,5 +165,5 @@ def check_cell_conditions(n: int, temperature_K, ere, dark_current: str):
     if dark_current not in DARK_MODELS:
         raise InputError("dark_current", f"must be one of {', '.join(DARK_MODELS)}", dark_current)
     t = per_junction("temperature_K", temperature_K, n, *TEMPERATURE_RANGE_K, "K")
-    e = per_junction("ere", ere, n, 0.0, 1.0, "", low_inclusive=False)
+    e = per_junction("ere", ere, n, *ERE_RANGE, "")
     return t, e

@@ -166,7 +166,7 @@ class CellConditions:
     temperature_K : float or numpy.ndarray
         Cell temperature [K], one value or one per junction (top first).
     ere : float or numpy.ndarray
-        External radiative efficiency (fraction in (0, 1]), one value or one per
+        External radiative efficiency (fraction in [1e-12, 1]), one value or one per
         junction.
     dark_current : {"boltzmann", "bose-einstein"}
         Form of the radiative dark current.
@@ -197,7 +197,7 @@ class CellConditions:
         temperature_K : float or array_like
             Cell temperature [K], 100-1000, one value or one per junction.
         ere : float or array_like
-            External radiative efficiency in (0, 1], one value or one per junction.
+            External radiative efficiency in [1e-12, 1], one value or one per junction.
         dark_current : {"boltzmann", "bose-einstein"}
             Form of the radiative dark current.
 

@@ -274,3 +274,31 @@ def test_thinner_top_cell_emits_less():
     vt = sc.k * 300.0 / sc.e
     j0 = res.solution.jph[:, 0] / np.expm1(res.solution.voc_junction[:, 0] / vt)
     assert np.all(np.diff(j0) > 0)
+
+
+@pytest.mark.parametrize(
+    "first_nm, gap_eV, refused",
+    [
+        (820.0, 1.30, True),  # table from 1.512 eV, gap 1.30 eV: does not reach the gap
+        (960.0, 1.30, False),  # table from 1.2915 eV: just covers the gap
+        (1000.0, 1.30, False),  # table from 1.240 eV: covers the gap
+    ],
+)
+def test_alpha_table_must_reach_the_gap(tmp_path, first_nm, gap_eV, refused):
+    # A table starting above the gap would give alpha = 0 between gap and first row and
+    # silently model a wider-gap cell; it is refused, naming junction, energy and file.
+    wl = np.arange(300.0, first_nm + 0.1, 5.0)
+    p = tmp_path / "short.csv"
+    p.write_text("wavelength_nm,alpha_per_cm\n" + "\n".join(f"{a},1e4" for a in wl))
+    kw = dict(absorber=["step", "table"], alpha_file=[None, p], thickness_nm=[0, 2000])
+    if refused:
+        with pytest.raises(
+            InputError,
+            match=r"alpha_file: the absorption table of junction 2 "
+            r"starts at 1\.51\d* eV .* above the junction's gap 1\.3 eV",
+        ):
+            gm.evaluate([1.8, gap_eV], "series", **kw)
+    else:
+        res = gm.evaluate([1.8, gap_eV], "series", **kw)
+        # the junction's V_oc stays below its gap (it was 2.7 V for a table not reaching it)
+        assert 0.0 < float(res.solution.voc_junction[0, 1]) < gap_eV

@@ -3,6 +3,7 @@ every follow-up (J-V curves, re-evaluation, reports) matches the result it came 
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -376,3 +377,28 @@ def test_solve_series_equals_one_evaluation_per_hour(am15g):
 def test_stack_validates_itself(kwargs, field):
     with pytest.raises(InputError, match=field):
         Stack(**kwargs)
+
+
+def _jv_bad_cases():
+    from gapmatch.model import CellConditions
+
+    r = gm.evaluate([[1.6, 0.9], [1.7, 1.0]])
+    hot = dataclasses.replace(r, cell=CellConditions(temperature_K=5000.0))
+    bright = dataclasses.replace(r, cell=CellConditions(ere=2.0))
+    return [
+        (r, dict(i=True), r"i: must be a stack index in \[0, 1\]"),
+        (r, dict(i=-1), r"i: must be a stack index"),
+        (r, dict(i=2), r"i: must be a stack index"),
+        (r, dict(i=0, points=-3), r"points: must be a whole number in \[2, 100000\]"),
+        (r, dict(i=0, points=True), r"points: must be a whole number"),
+        ({"efficiency": 0.4}, dict(i=0), r"result: must be a result of gapmatch.evaluate"),
+        (hot, dict(i=0), r"temperature_K: must be a number in \[100, 1000\] K"),
+        (bright, dict(i=0), r"ere: must be a number in \[1e-12, 1\]"),
+    ]
+
+
+@pytest.mark.parametrize("case", range(8))
+def test_jv_curve_validates_like_evaluate(case):
+    result, kw, match = _jv_bad_cases()[case]
+    with pytest.raises(gm.InputError, match=match):
+        gm.jv_curve(result, **kw)

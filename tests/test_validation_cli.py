@@ -44,9 +44,13 @@ from gapmatch.cli import main
             dict(gaps_eV=[1.7, 1.1], temperature_K=[300, 2000]),
             r"temperature_K: every value must be finite and in \[100, 1000\] K",
         ),
-        (dict(gaps_eV=[1.1], ere=0.0), r"ere: must be a number in \(0, 1\]"),
-        (dict(gaps_eV=[1.1], ere=1.5), r"ere: must be a number in \(0, 1\]"),
-        (dict(gaps_eV=[1.7, 1.1], ere=[1.0, 0.0]), r"ere: every value must be > 0"),
+        (dict(gaps_eV=[1.1], ere=0.0), r"ere: must be a number in \[1e-12, 1\]"),
+        (dict(gaps_eV=[1.1], ere=5e-324), r"ere: must be a number in \[1e-12, 1\]"),
+        (dict(gaps_eV=[1.1], ere=1.5), r"ere: must be a number in \[1e-12, 1\]"),
+        (
+            dict(gaps_eV=[1.7, 1.1], ere=[1.0, 0.0]),
+            r"ere: every value must be finite and in \[1e-12, 1\]",
+        ),
         (
             dict(gaps_eV=[1.7, 1.1], cells_per_string=[1, 2]),
             r"cells_per_string: applies to connection 'voltage-matched' only",
@@ -145,7 +149,7 @@ def test_cli_spectrum_options(capsys, tmp_path):
     "argv, match",
     [
         (["evaluate", "--gaps", "0.9", "1.6"], "gaps must decrease strictly"),
-        (["evaluate", "--gaps", "1.1", "--ere", "2"], r"ere: must be a number in \(0, 1\]"),
+        (["evaluate", "--gaps", "1.1", "--ere", "2"], r"ere: must be a number in \[1e-12, 1\]"),
         (["evaluate", "--gaps", "1.1", "--spectrum-file", "/nonexistent.csv"], "file not found"),
     ],
 )

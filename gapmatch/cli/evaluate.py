@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import argparse
-import json
 
 from ..api import evaluate
 from ..core.absorption import ABSORBER_MODELS, LIGHT_TRAPPING
 from ..core.registry import CONNECTIONS
+from ..io.finite import dumps
 from ..results import LOSS_LABELS
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
@@ -243,7 +243,7 @@ def run(args: argparse.Namespace) -> int:
     )
     d = res.stack(0)
     if args.json:
-        print(json.dumps(d, indent=2))
+        print(dumps(d, what="evaluate --json", indent=2))
         return 0
     print(format_table(d))
     return 0

@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 
 from ..core.registry import CONNECTIONS
+from ..io.finite import check_frame, dumps
 from ..maps import OTHERS_MODES, compute_map
 from .commands import COMMANDS
 from .options import add_condition_options, condition_kwargs
@@ -109,11 +109,13 @@ def run(args: argparse.Namespace) -> int:
         from ..io.atomic import write_atomic
 
         prefix = Path(args.out)
-        write_atomic(f"{prefix}_map.csv", m.to_frame().to_csv(index=False, float_format="%.6g"))
-        write_atomic(f"{prefix}_summary.json", json.dumps(summary, indent=2))
+        frame = check_frame(m.to_frame(), what=f"{prefix}_map.csv")
+        text = dumps(summary, what=f"{prefix}_summary.json", indent=2)
+        write_atomic(f"{prefix}_map.csv", frame.to_csv(index=False, float_format="%.6g"))
+        write_atomic(f"{prefix}_summary.json", text)
         print(f"wrote {prefix}_map.csv and {prefix}_summary.json", file=sys.stderr)
     if args.json:
-        print(json.dumps(summary, indent=2))
+        print(dumps(summary, what="map --json", indent=2))
         return 0
     print(format_summary(summary))
     return 0

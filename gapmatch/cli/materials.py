@@ -7,7 +7,8 @@ function); :func:`run` returns the exit status.
 from __future__ import annotations
 
 import argparse
-import json
+
+from ..io.finite import dumps
 
 __all__ = ["add_parser", "register", "run"]
 
@@ -45,7 +46,7 @@ def run(args: argparse.Namespace) -> int:
             "not specifications of any material or product; values marked 'from memory' or "
             "'common practice, no source' are unchecked."
         }
-        print(json.dumps(d, indent=1))
+        print(dumps(d, what="materials --json", indent=1))
         return 0
     if args.values:
         f = lib.sources_frame()

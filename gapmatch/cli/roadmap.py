@@ -7,10 +7,10 @@ for the ``COMMANDS`` convention); :func:`run` returns the exit status.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 from ..errors import InputError
+from ..io.finite import dumps
 
 __all__ = ["add_parser", "register", "run"]
 
@@ -98,7 +98,7 @@ def run(args: argparse.Namespace) -> int:
         paths = result.write_csv(args.csv)
         print(f"wrote {len(paths)} CSV files to {args.csv}", file=sys.stderr)
     if args.json:
-        print(json.dumps(result.to_dict(), indent=1))
+        print(dumps(result.to_dict(), what="roadmap --json", indent=1))
     else:
         print(_table(result))
     return 0

@@ -266,7 +266,7 @@ def build_report(
                 if isinstance(obj, pd.DataFrame):
                     files[fname] = obj.to_csv(index=False, float_format="%.6g")
                 else:
-                    files[fname] = json.dumps(obj, indent=2, default=_jsonable)
+                    files[fname] = json.dumps(obj, indent=2, default=_jsonable, allow_nan=False)
             bar.update(1)
             if progress and not tty:
                 print(
@@ -288,7 +288,7 @@ def build_report(
     }
     summary["reproducibility"] = footer
     sname = f"{study.name}_summary.json"
-    files[sname] = json.dumps(summary, indent=2, default=_jsonable)
+    files[sname] = json.dumps(summary, indent=2, default=_jsonable, allow_nan=False)
     page = render_page(study, outputs, footer=footer, files=sorted(files))
     return Report(study.name, page, files, summary)
 
