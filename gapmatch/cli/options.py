@@ -56,7 +56,7 @@ def add_condition_options(p: argparse.ArgumentParser) -> None:
         "--ere",
         type=float,
         default=1.0,
-        help="external radiative efficiency, (0, 1] (default 1: radiative limit)",
+        help="external radiative efficiency, [1e-12, 1] (default 1: radiative limit)",
     )
     g.add_argument(
         "--dark-current",
