@@ -338,7 +338,11 @@ def run_trials(
         except KeyboardInterrupt:  # an interrupt cut the trial: it runs again on resume
             _retry_cut_trial(study, obj.current)
             raise
-        except _race_errors() as exc:  # another process changed the trial first
+        except (*_race_errors(), ValueError) as exc:  # another process changed it first
+            # optuna raises a plain ValueError ("Cannot tell a COMPLETE trial.") when two
+            # processes took the same enqueued trial and the other one finished it first
+            if isinstance(exc, ValueError) and not str(exc).startswith("Cannot tell a"):
+                raise
             races += 1
             if races > MAX_RACES:
                 raise
