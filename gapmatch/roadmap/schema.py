@@ -255,6 +255,8 @@ def _uncertain(value: Any, path: str, name: str) -> Uncertain:
             raise InputError(f"{path}.likely", f"must lie in [low, high] = [{a:g}, {b:g}]", c)
         return Uncertain("triangular", a, c, b, log)
     mid = float(10.0 ** ((np.log10(a) + np.log10(b)) / 2)) if log else (a + b) / 2
+    # The geometric mean can round one ulp outside [low, high] when low == high.
+    mid = min(max(mid, a), b)
     return Uncertain("uniform", a, mid, b, log)
 
 
