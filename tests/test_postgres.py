@@ -171,3 +171,24 @@ def test_sigkilled_worker_is_retried_and_study_resumes(pg):
     assert "(resumed)" in again.stderr
     assert len(_trials(url, "kill")) == len(trials)
     assert json.loads(again.stdout)["gaps_eV"] == first["gaps_eV"]
+
+
+@pytest.mark.filterwarnings("ignore:Heartbeat of storage:UserWarning")
+def test_trial_of_a_process_killed_before_its_first_heartbeat_is_failed(pg, monkeypatch):
+    """A process killed between optuna creating its trial and the heartbeat thread's first
+    write leaves a RUNNING trial with no heartbeat, which optuna's own stale rule skips
+    (seen: a two-worker search waited 600 s for it). ``study.ask()`` on a heartbeat
+    storage makes exactly such a trial (heartbeats start only inside ``optimize``)."""
+    from gapmatch.search import workers
+    from gapmatch.search.storage import open_storage
+
+    url = pg.new_database()
+    study = optuna.create_study(study_name="orphan", storage=open_storage(url))
+    orphan = study.ask()
+    assert orphan.number == 0
+    monkeypatch.setattr(workers, "UNTAGGED_STALE_S", 0.2, raising=False)
+    time.sleep(0.5)
+    assert workers.fail_stale_trials(study) == 1
+    states = [t.state for t in study.get_trials(deepcopy=False)]
+    # the orphan failed, and its retry is enqueued (optuna's retry callback)
+    assert states == [optuna.trial.TrialState.FAIL, optuna.trial.TrialState.WAITING]

@@ -44,7 +44,7 @@ from .polish import polish
 from .problem import SearchProblem
 from .result import SearchResult, trials_frame
 from .samplers import SAMPLERS, make_sampler
-from .storage import open_storage, open_study, quiet_optuna, shown_url, storage_url, uses_heartbeats
+from .storage import open_storage, open_study, quiet_optuna, shown_url, storage_url
 from .trials import SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
 from .workers import GracefulStop, count_trials, run_trials, worker_main
 
@@ -329,7 +329,6 @@ def _optimise(
             if n_global > 0:
                 gx, gv = sobol_candidates(problem, n_global, seed)
     resumed = not created
-    tag = not uses_heartbeats(url)  # SQLite and journal files: host:pid on each trial
 
     # 2. optuna trials, until the study holds its budget
     if resume_command is None:
@@ -353,7 +352,7 @@ def _optimise(
                     unit="trial",
                     dynamic_ncols=True,
                 )
-            run = dict(guard=guard, progress=bar, tag_worker=tag)
+            run = dict(guard=guard, progress=bar)
             if workers > 1:
                 # the enqueued Sobol seeds run here first, then every worker is a process
                 # of its own and this one watches the storage

@@ -12,8 +12,11 @@ places (or 4 per running trial) each trial also checks its own place when it sta
 Processes stop gracefully on SIGINT and SIGTERM (the running trial finishes, nothing is
 cut in half); worker processes started by :func:`gapmatch.search.optimise` also stop
 when their parent dies. Running trials of dead processes are failed and retried:
-through optuna's heartbeats on database servers, through the recorded ``host:pid`` on
-SQLite and journal files, and after :data:`LEGACY_STALE_S` for trials that have neither.
+through optuna's heartbeats on database servers and the ``host:pid`` every trial
+records first (a dead process on this host is seen at once), after
+:data:`UNTAGGED_STALE_S` for a trial whose process died before it recorded anything
+(optuna's heartbeat rule never fails a trial that has no heartbeat yet), and after
+:data:`LEGACY_STALE_S` for a trial of another host on a file storage.
 """
 
 from __future__ import annotations
@@ -45,8 +48,14 @@ __all__ = [
 
 #: pause between looks at the storage while other processes hold the last places [s]
 WAIT_S = 0.5
-#: a running trial without heartbeat or worker record is failed after this long [s]
+#: a running trial whose worker record is on another host (a journal file cannot watch
+#: it) is failed after this long [s]
 LEGACY_STALE_S = 600.0
+#: a running trial with no worker record at all is failed after this long [s]: every
+#: trial records ``host:pid`` first thing, so such a trial lost its process between
+#: optuna creating it and the objective starting, before optuna's first heartbeat (a
+#: trial with no heartbeat is never failed by optuna's own rule)
+UNTAGGED_STALE_S = 30.0
 #: storage races (another process changed a trial first) tolerated in a row
 MAX_RACES = 20
 #: "near the budget": fewer free places than this, or than 4 per running trial; there
@@ -134,8 +143,10 @@ def fail_stale_trials(study: optuna.Study) -> int:
     Database storages use optuna's heartbeats (:func:`optuna.storages.fail_stale_trials`
     with :class:`~optuna.storages.RetryFailedTrialCallback`). Trials that carry a
     ``host:pid`` tag (journal files) are failed when that process is gone on this host;
-    any other trial still running after :data:`LEGACY_STALE_S` (made before heartbeats,
-    or by a process on another host that a journal file cannot watch) is failed too.
+    a trial with no tag still running after :data:`UNTAGGED_STALE_S` (its process died
+    before the objective started, so it has no heartbeat either) and one tagged on
+    another host still running after :data:`LEGACY_STALE_S` (a journal file cannot
+    watch it) are failed too.
 
     Returns
     -------
@@ -149,9 +160,9 @@ def fail_stale_trials(study: optuna.Study) -> int:
     for t in study.get_trials(deepcopy=False, states=(_TS.RUNNING,)):
         tag = t.user_attrs.get("worker")
         alive = _alive(tag)
-        started = t.datetime_start or now
-        old = (now - started).total_seconds() > LEGACY_STALE_S
-        if alive is False or (alive is None and old):
+        age = (now - (t.datetime_start or now)).total_seconds()
+        limit = UNTAGGED_STALE_S if tag is None else LEGACY_STALE_S
+        if alive is False or (alive is None and age > limit):
             try:
                 with quiet_optuna():
                     study.tell(t.number, state=_TS.FAIL)
@@ -174,16 +185,14 @@ class TrialObjective:
     budget : int, optional
         The study's trial budget; a trial started when every place is held by
         lower-numbered trials stops as ``surplus``.
-    tag_worker : bool
-        Store ``host:pid`` when the trial starts (storages without heartbeats).
+
+    Every trial records ``host:pid`` as its first write, so that :func:`fail_stale_trials`
+    can tell a trial of a dead process from a running one on every storage.
     """
 
-    def __init__(
-        self, problem: SearchProblem, budget: int | None = None, tag_worker: bool = False
-    ) -> None:
+    def __init__(self, problem: SearchProblem, budget: int | None = None) -> None:
         self.problem = problem
         self.budget = budget
-        self.tag_worker = tag_worker
         self.current: int | None = None  # number of the trial being run
         self.check = True  # check the budget at the start of the trial
 
@@ -195,11 +204,10 @@ class TrialObjective:
 
     def __call__(self, trial: optuna.Trial):
         self.current = trial.number
+        trial.set_user_attr("worker", worker_tag())
         if self.budget is not None and self.check and self._surplus(trial):
             trial.set_user_attr("stage", "surplus")
             raise optuna.TrialPruned("the study's trial budget is taken")
-        if self.tag_worker:
-            trial.set_user_attr("worker", worker_tag())
         p = self.problem
         x = np.array(
             [
@@ -281,7 +289,6 @@ def run_trials(
     guard: GracefulStop | None = None,
     progress=None,
     only_waiting: bool = False,
-    tag_worker: bool = False,
     parent_pid: int | None = None,
 ) -> BudgetCount:
     """Run trials until the study's budget is counted (or a stop is requested).
@@ -298,8 +305,6 @@ def run_trials(
         Updated after every trial.
     only_waiting : bool
         Run only the waiting (enqueued) trials.
-    tag_worker : bool
-        Record ``host:pid`` on each trial (storages without heartbeats).
     parent_pid : int, optional
         Stop when this process is no longer the parent (worker processes).
 
@@ -308,7 +313,7 @@ def run_trials(
     BudgetCount
         The last count read.
     """
-    obj = TrialObjective(problem, budget, tag_worker)
+    obj = TrialObjective(problem, budget)
     races = 0
     fail_stale_trials(study)
     while True:
@@ -397,13 +402,4 @@ def worker_main(problem, url, study_name, sampler_name, seed, budget, parent_pid
             storage=storage,
             sampler=make_sampler(sampler_name, problem, seed),
         )
-        from .storage import uses_heartbeats
-
-        run_trials(
-            study,
-            problem,
-            budget,
-            guard=guard,
-            tag_worker=not uses_heartbeats(url),
-            parent_pid=parent_pid,
-        )
+        run_trials(study, problem, budget, guard=guard, parent_pid=parent_pid)
