@@ -15,7 +15,12 @@ step absorbers
     The same study without the thickness projections (every junction a step absorber;
     ERE, collection and resistance as in the demo).
 
-Target (issue 12): at most 10 s whole process.
+site
+    The demo study ranked by annual energy at pvlib's Greensboro TMY3 sample site
+    (``[site]`` instead of ``[conditions]``; 24 representative spectra, and every
+    candidate's likely stack checked on all 4,421 daylight hours at the last milestone).
+
+Targets: at most 10 s whole process under AM1.5G, 60 s with a site.
 
     python benchmarks/roadmap.py          # one line per case; exit 1 on a missed target
 """
@@ -33,7 +38,8 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "configs" / "roadmap-demo.toml"
-TARGET_S = 10.0
+TARGET_S = {"demo": 10.0, "step absorbers": 10.0, "site": 60.0}
+SITE = '[site]\nweather = "pvlib:723170TYA.CSV"\ntilt_deg = 30.0\n'
 
 RUN = (
     "import argparse, sys\n"
@@ -47,6 +53,11 @@ RUN = (
 
 def _without_thickness(text: str) -> str:
     return re.sub(r"^thickness_nm = .*\n", "", text, flags=re.M)
+
+
+def _with_site(text: str) -> str:
+    text = re.sub(r"^\[conditions\]\n(?:[^\[\n].*\n|\n)*", "", text, flags=re.M)
+    return text + "\n" + SITE
 
 
 def measure(path: Path) -> dict:
@@ -73,16 +84,19 @@ def main() -> int:
         step = Path(tmp) / "step.toml"
         step.write_text(_without_thickness(text))
         cases.append(("step absorbers", step))
+        site = Path(tmp) / "site.toml"
+        site.write_text(_with_site(text))
+        cases.append(("site", site))
         ok = True
         for name, path in cases:
             r = measure(path)
-            hit = r["wall_s"] <= TARGET_S
+            hit = r["wall_s"] <= TARGET_S[name]
             ok &= hit
             print(
                 f"{name:<15} 6 candidates x 3 milestones x 2000 draws: "
                 f"{r['wall_s']:6.2f} s wall, {r['cpu_s']:6.2f} s CPU "
                 f"(load {r['load']:.1f} on {os.cpu_count()} cores) "
-                f"target {TARGET_S:g} s: {'ok' if hit else 'MISSED'}"
+                f"target {TARGET_S[name]:g} s: {'ok' if hit else 'MISSED'}"
             )
     return 0 if ok else 1
 

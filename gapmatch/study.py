@@ -765,3 +765,26 @@ def _site(sd: dict, base_dir: Path | None) -> Site:
         map_step_eV=sd["map_step_eV"],
         given=given,
     )
+
+
+def parse_site(table: dict, base_dir: str | Path | None = None) -> Site:
+    """Validate a ``[site]`` table (schema :data:`SITE_TABLE`) on its own, for other
+    study kinds that take a site (roadmap studies).
+
+    Parameters
+    ----------
+    table : dict
+        The TOML table.
+    base_dir : str or pathlib.Path, optional
+        Folder a relative ``weather`` path is resolved against (the study file's).
+
+    Returns
+    -------
+    Site
+
+    Raises
+    ------
+    InputError
+        Naming the key path (``site.<key>``) of the first problem.
+    """
+    return _site(SITE_TABLE.check(table, "site"), None if base_dir is None else Path(base_dir))

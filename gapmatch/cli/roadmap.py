@@ -55,6 +55,19 @@ def _table(result) -> str:
         f"{st.draws} draws, seed {st.seed}; {result.evaluator.label}; "
         "P10 / P50 / P90 over the projected uncertainties"
     )
+    q = result.evaluator.describe()
+    if "site" in q:
+        site = q["site"]
+        lines.append(
+            f"site: {site.get('name') or site.get('weather')}, {q['poa_irradiation_kWh_m2']:.0f} "
+            f"kWh m^-2 yr^-1 in-plane; {q['representative_spectra']} representative spectra "
+            f"of {q['daylight_intervals']} daylight hours"
+        )
+        for c in q.get("representative_set_checked_on_full_year", []):
+            lines.append(
+                f"  check on every hour, {c['stack']}: {c['full_year_kWh_m2']:.2f} kWh m^-2 "
+                f"(representative set {100 * c['relative_error']:+.2f} %)"
+            )
     legend = {}
     for year, grp in frame.groupby("year", sort=False):
         lines.append("")

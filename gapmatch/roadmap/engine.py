@@ -39,7 +39,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
-from .evaluator import EfficiencyEvaluator, Evaluator
+from .evaluator import AnnualEnergyEvaluator, EfficiencyEvaluator, Evaluator
 from .result import HEADROOM_ORDER, CandidateOutcome, RoadmapResult
 from .schema import Candidate, RoadmapStudy
 
@@ -115,7 +115,23 @@ def _physics(study, cand: Candidate, year: int, m: int, values: dict, off=()) ->
         phys["series_resistance_ohm_cm2"] = float(sum(rs)) if connection == "series" else rs
     if cand.cells_per_string is not None and connection == "voltage-matched":
         phys["cells_per_string"] = list(cand.cells_per_string)
+    if study.site is not None:
+        # the site's cell temperature changes by the hour: gaps stay at 300 K here and
+        # the evaluator shifts them with the materials' temperature models
+        phys["gap_at"] = _gap_at(mats)
     return connection, phys
+
+
+def _gap_at(mats):
+    """Function: gaps at 300 K ``(M, N)`` and a cell temperature [K] -> gaps [eV]."""
+
+    def gap_at(g, t):
+        g = np.atleast_2d(np.asarray(g, dtype=float))
+        if t == 300.0:
+            return g
+        return np.column_stack([m.gap.shift_eV(g[:, k], t) for k, m in enumerate(mats)])
+
+    return gap_at
 
 
 def _row(phys: dict) -> dict:
@@ -128,17 +144,11 @@ def _row(phys: dict) -> dict:
 
 
 def _shift(study, cand: Candidate):
-    """Function: gaps at 300 K ``(M, N)`` -> gaps at the cell temperature [eV]."""
-    t = study.conditions.get("temperature_K", 300.0)
-    mats = [study.library[mat] for mat in cand.materials]
-
-    def shift(g):
-        g = np.atleast_2d(np.asarray(g, dtype=float))
-        if t == 300.0:
-            return g
-        return np.column_stack([m.gap.shift_eV(g[:, k], t) for k, m in enumerate(mats)])
-
-    return shift
+    """Function: gaps at 300 K ``(M, N)`` -> gaps at the cell temperature [eV] (with a
+    site: unchanged, the evaluator shifts them hour by hour)."""
+    t = 300.0 if study.site is not None else study.conditions.get("temperature_K", 300.0)
+    gap_at = _gap_at([study.library[mat] for mat in cand.materials])
+    return lambda g: gap_at(g, t)
 
 
 def _windows(study, cand: Candidate, year: int) -> list[tuple[float, float]]:
@@ -333,6 +343,10 @@ def run_roadmap(
         if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**32:
             raise InputError("seed", "must be a whole number in [0, 2^32 - 1]", seed)
         study = _replace(study, seed=seed)
+    if evaluator is None and study.site is not None:
+        evaluator = AnnualEnergyEvaluator.from_site(
+            study.site, representatives=study.representatives, seed=study.seed
+        )
     if evaluator is None:
         c = study.conditions
         evaluator = EfficiencyEvaluator(
@@ -407,6 +421,14 @@ def run_roadmap(
         if bar is not None:
             bar.close()
     _probabilities(outcomes, study)
+    check = getattr(evaluator, "check_representatives", None)
+    if check is not None:
+        # the representative spectra against every daylight hour, for each candidate's
+        # likely stack at the last milestone
+        last = study.milestones[-1]
+        for o in (o for o in outcomes if o.year == last):
+            conn, phys = _physics(study, o.candidate, last, 1, {})
+            check(f"{o.candidate.name} ({last})", o.gaps_cell_eV[None], conn, _row(phys), o.likely)
     return RoadmapResult(
         study=study,
         outcomes=outcomes,

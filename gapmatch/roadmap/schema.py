@@ -15,6 +15,14 @@ Tables
     ``spectrum`` (``AM1.5G``, ``AM1.5D``, ``AM0``, ``blackbody``), ``spectrum_file``,
     ``concentration`` [suns], ``irradiance_W_m2``, ``temperature_K`` (cell temperature
     [K]; library gaps are shifted to it with their temperature models).
+``[site]``
+    Optional: rank candidates by their modelled annual energy at a site instead of
+    their efficiency under one spectrum. The keys of a report study's ``[site]`` table
+    (``weather`` file relative to the study file or ``pvlib:NAME``, ``tilt_deg``,
+    ``azimuth_deg``, ``tracking``, ``albedo``, ``temperature_model``, ``mounting``,
+    ``transposition``, ...), plus ``representatives`` (weighted representative spectra
+    of the year used for every evaluation, 4 to 96, default 24). Excludes
+    ``[conditions]``: the site brings its own hourly spectra and cell temperatures.
 ``[search]``
     ``samples`` (Sobol points of the gap search, 16 to 65536, default 256), ``starts``
     (polished basins, 1 to 16, default 3), ``min_spacing_eV`` (default 0.05).
@@ -217,6 +225,8 @@ class RoadmapStudy:
     organisation: str = ""
     description: str = ""
     origin: str = ""
+    site: Any = None  #: gapmatch.study.Site or None
+    representatives: int = 24
 
     def projection(self, material: str, year: int) -> Projection:
         """The projection of ``material`` at ``year``."""
@@ -457,9 +467,31 @@ def parse_roadmap(
         )
     ck.check_keys(
         doc,
-        ("roadmap", "conditions", "search", "sources", "materials", "candidates", "projections"),
+        (
+            "roadmap",
+            "conditions",
+            "site",
+            "search",
+            "sources",
+            "materials",
+            "candidates",
+            "projections",
+        ),
         "",
     )
+    site, representatives = None, 24
+    if "site" in doc:
+        from ..study import parse_site
+
+        if "conditions" in doc:
+            raise InputError(
+                "site",
+                "excludes [conditions]: a site brings its own hourly spectra and cell "
+                "temperatures (remove one of the two tables)",
+            )
+        raw = dict(ck.table(doc["site"], "site"))
+        representatives = ck.integer(raw.pop("representatives", 24), "site.representatives", 4, 96)
+        site = parse_site(raw, base_dir)
     rm = ck.table(ck.need(doc, "roadmap", ""), "roadmap")
     ck.check_keys(
         rm,
@@ -520,6 +552,8 @@ def parse_roadmap(
         if "description" in rm
         else "",
         origin=origin,
+        site=site,
+        representatives=representatives,
     )
 
 
