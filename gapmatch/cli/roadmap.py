@@ -37,6 +37,11 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         metavar="DIR",
         help="also write every table and the draws as CSV files into DIR",
     )
+    p.add_argument(
+        "--report",
+        metavar="PAGE.html",
+        help="also write a self-contained HTML page of the result (atomically)",
+    )
     p.add_argument("--quiet", action="store_true", help="no progress bar on stderr")
     p.set_defaults(func=run)
     return p
@@ -102,6 +107,10 @@ def run(args: argparse.Namespace) -> int:
     from ..roadmap import load_roadmap, run_roadmap
 
     study = load_roadmap(args.study)
+    if args.report:
+        from ..io.atomic import check_writable
+
+        check_writable(args.report, "--report")
     if args.draws is not None and not 1 <= args.draws <= 100_000:
         raise InputError("--draws", "must be a whole number in [1, 100000]", args.draws)
     if args.seed is not None and not 0 <= args.seed < 2**32:
@@ -110,6 +119,11 @@ def run(args: argparse.Namespace) -> int:
     if args.csv:
         paths = result.write_csv(args.csv)
         print(f"wrote {len(paths)} CSV files to {args.csv}", file=sys.stderr)
+    if args.report:
+        from ..report.roadmap_page import write_roadmap_page
+
+        path = write_roadmap_page(result, args.report)
+        print(f"wrote {path}", file=sys.stderr)
     if args.json:
         print(dumps(result.to_dict(), what="roadmap --json", indent=1))
     else:

@@ -6,7 +6,7 @@ import os
 import tempfile
 from pathlib import Path
 
-__all__ = ["write_atomic"]
+__all__ = ["check_writable", "write_atomic"]
 
 
 def write_atomic(path: str | os.PathLike, data: str | bytes, encoding: str = "utf-8") -> Path:
@@ -49,3 +49,37 @@ def write_atomic(path: str | os.PathLike, data: str | bytes, encoding: str = "ut
             pass
         raise
     return dest
+
+
+def check_writable(path: str | os.PathLike, field: str) -> Path:
+    """Check, before any work, that a file can be written at ``path``: its folder is
+    created if missing and a temporary file is made there and removed again.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Destination file.
+    field : str
+        Option or key that named it, for the message.
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    InputError
+        When the file could not be written.
+    """
+    from ..errors import InputError
+
+    p = Path(path)
+    if p.is_dir():
+        raise InputError(field, "is a folder; give a file name", str(p))
+    try:
+        p.parent.mkdir(parents=True, exist_ok=True)
+        with tempfile.NamedTemporaryFile(dir=p.parent, prefix=f".{p.name}.", suffix=".check"):
+            pass
+    except OSError as exc:
+        raise InputError(field, f"cannot be written ({exc.strerror})", str(p)) from None
+    return p

@@ -18,6 +18,8 @@ from .result import CAUTION, RoadmapResult
 __all__ = ["report_sections", "ranking_table_html", "sources_table_html"]
 
 _FLAGGED = ("from memory", "common practice, no source")
+#: column-name unit suffix -> unit as printed in a table header
+_UNIT_SHOWN = {"pct": "%", "kWh_m2": "kWh m^-2 yr^-1"}
 
 
 def _e(s) -> str:
@@ -32,11 +34,12 @@ def ranking_table_html(result: RoadmapResult, year: int) -> str:
     """The ranking of one milestone as an HTML table (values flagged with a dagger when
     they use unchecked library values)."""
     u = result.unit
+    shown = _e(_UNIT_SHOWN.get(u, u))
     f = result.ranking_frame()
     f = f[f["year"] == year]
     head = (
         "<tr><th>#</th><th>candidate</th><th>connection</th><th>gaps at 300 K [eV]</th>"
-        f"<th>P10 [{_e(u)}]</th><th>P50 [{_e(u)}]</th><th>P90 [{_e(u)}]</th>"
+        f"<th>P10 [{shown}]</th><th>P50 [{shown}]</th><th>P90 [{shown}]</th>"
         "<th>P(best)</th><th>moves it most</th><th>marks</th></tr>"
     )
     rows = []
