@@ -245,3 +245,19 @@ def test_roadmap_cli_on_local_cluster(tmp_path, capsys):
     assert main(["roadmap", str(f), "--json", "--quiet", "--cluster", "local:2"]) == 0
     remote = json.loads(capsys.readouterr().out)
     assert remote["milestones"] == local["milestones"]
+
+
+def _shared_kinds(k, *, empty, mapping, pair):
+    return (k, empty, mapping, pair)
+
+
+def test_shared_containers_arrive_whole(client):
+    """Bug: an empty dict in ``shared`` made Client.scatter fail (it scatters a dict's
+    items one by one); dicts, tuples and empty ones must arrive as the objects given."""
+    out = cluster.map_chunks(
+        _shared_kinds,
+        [0, 1],
+        client=client,
+        shared={"empty": {}, "mapping": {"a": 1}, "pair": ("series", "independent")},
+    )
+    assert out == [(k, {}, {"a": 1}, ("series", "independent")) for k in (0, 1)]
