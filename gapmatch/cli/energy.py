@@ -47,8 +47,8 @@ def add_site_arguments(p: argparse.ArgumentParser, *, weather_default: str | Non
         "--weather",
         default=weather_default,
         metavar="PATH",
-        help="TMY3, TMY2, EPW or plain CSV weather file, or 'demo' (the Greensboro, NC "
-        "TMY3 sample shipped with pvlib, NREL open data)"
+        help="TMY3, TMY2, EPW, PVGIS TMY (.json/.csv) or plain CSV weather file, or "
+        "'demo' (the Greensboro, NC TMY3 sample shipped with pvlib, NREL open data)"
         + (" (default demo)" if weather_default == "demo" else "; gives annual-energy results"),
     )
     g.add_argument(
