@@ -30,7 +30,7 @@ import numpy as np
 import optuna
 
 from .problem import SearchProblem
-from .storage import open_storage, quiet_optuna, worker_tag
+from .storage import GRACE_S, open_storage, quiet_optuna, worker_tag
 from .trials import RETRY, SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
 
 __all__ = [
@@ -47,6 +47,12 @@ __all__ = [
 WAIT_S = 0.5
 #: a running trial without heartbeat or worker record is failed after this long [s]
 LEGACY_STALE_S = 600.0
+#: a running trial on a heartbeat storage with no heartbeat this long after it started is
+#: failed and retried: a live process records the first heartbeat right after the trial
+#: starts (optuna's ``study.ask()``, then the heartbeat thread), so only a process killed
+#: in between leaves one; three grace periods cover a loaded machine and small clock
+#: differences between machines [s]
+NO_HEARTBEAT_S = 3 * GRACE_S
 #: storage races (another process changed a trial first) tolerated in a row
 MAX_RACES = 20
 #: "near the budget": fewer free places than this, or than 4 per running trial; there
@@ -132,7 +138,10 @@ def fail_stale_trials(study: optuna.Study) -> int:
     """Fail the running trials of dead processes and enqueue their retries.
 
     Database storages use optuna's heartbeats (:func:`optuna.storages.fail_stale_trials`
-    with :class:`~optuna.storages.RetryFailedTrialCallback`). Trials that carry a
+    with :class:`~optuna.storages.RetryFailedTrialCallback`); a running trial there that
+    has no heartbeat at all :data:`NO_HEARTBEAT_S` after it started belongs to a process
+    killed between creating the trial and its first heartbeat (optuna's stale rule
+    skips such trials) and is failed and retried too. Trials that carry a
     ``host:pid`` tag (journal files) are failed when that process is gone on this host;
     any other trial still running after :data:`LEGACY_STALE_S` (made before heartbeats,
     or by a process on another host that a journal file cannot watch) is failed too.
@@ -144,13 +153,15 @@ def fail_stale_trials(study: optuna.Study) -> int:
     """
     with quiet_optuna():
         optuna.storages.fail_stale_trials(study)
+    silent = _without_heartbeat(study)
     now = dt.datetime.now()
     n = 0
     for t in study.get_trials(deepcopy=False, states=(_TS.RUNNING,)):
         tag = t.user_attrs.get("worker")
         alive = _alive(tag)
         started = t.datetime_start or now
-        old = (now - started).total_seconds() > LEGACY_STALE_S
+        age = (now - started).total_seconds()
+        old = age > LEGACY_STALE_S or (t.number in silent and age > NO_HEARTBEAT_S)
         if alive is False or (alive is None and old):
             try:
                 with quiet_optuna():
@@ -162,6 +173,35 @@ def fail_stale_trials(study: optuna.Study) -> int:
                 RETRY(max_retry=3)(study, frozen)
             n += 1
     return n
+
+
+def _without_heartbeat(study: optuna.Study) -> set[int]:
+    """Numbers of the running trials with no heartbeat row (database storages with
+    heartbeats; empty for any other storage, or if optuna's tables cannot be read)."""
+    storage = getattr(study._storage, "_backend", study._storage)  # optuna's cache wrapper
+    if not isinstance(storage, optuna.storages.RDBStorage) or not storage.heartbeat_interval:
+        return set()
+    try:  # optuna's table models: no public reader of heartbeat rows exists
+        from optuna.storages._rdb import models
+
+        session = storage.scoped_session()
+        try:
+            rows = (
+                session.query(models.TrialModel.number)
+                .outerjoin(
+                    models.TrialHeartbeatModel,
+                    models.TrialHeartbeatModel.trial_id == models.TrialModel.trial_id,
+                )
+                .filter(models.TrialModel.study_id == study._study_id)
+                .filter(models.TrialModel.state == _TS.RUNNING)
+                .filter(models.TrialHeartbeatModel.trial_heartbeat_id.is_(None))
+                .all()
+            )
+        finally:
+            session.close()
+    except Exception:  # noqa: BLE001 - an optuna without these models: age rule only
+        return set()
+    return {int(r[0]) for r in rows}
 
 
 class TrialObjective:
