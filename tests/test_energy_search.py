@@ -172,3 +172,23 @@ def test_cli_map_with_a_site(capsys, tmp_path):
         assert (tmp_path / f"site{suffix}").exists()
     code, _, err = _run(capsys, ["map", "--weather", "demo", "--stack", "1.9", "1.4", "1.0"])
     assert code == 2 and "--stack" in err
+
+
+def test_two_worker_processes_share_the_yield_study(site, tmp_path):
+    """--workers 2 on an SQLite file: the yield search runs in two processes (the
+    objective with its spectra is sent to each), the AM1.5G search in one, and the
+    study holds exactly the trial budget."""
+    short = site.take(slice(0, site.hours, 8))
+    problem = make_problem(2, "series", fixed_eV={2: 1.12})
+    r = optimise_yield(
+        problem,
+        short,
+        representatives=8,
+        trials=10,
+        global_samples=64,
+        workers=2,
+        storage=str(tmp_path / "s.db"),
+    )
+    assert r.yield_search.n_trials == 10 and r.yield_search.workers == 2
+    assert r.am15g_search.storage == ":memory:"
+    assert r.yield_optimum["annual_energy_kWh_m2"] >= r.am15g_optimum["annual_energy_kWh_m2"]

@@ -228,7 +228,8 @@ def optimise_yield(
         Where the yield search's trials are kept (see :func:`gapmatch.search.optimise`;
         the default study name is derived from the site and the settings).
     reference_storage : str, optional
-        Storage of the AM1.5G search (default ``":memory:"``: it is fast to repeat).
+        Storage of the AM1.5G search (default ``":memory:"``, in one process: it is fast
+        to repeat).
     progress : bool
         Progress bars of the searches.
     **search_kwargs
@@ -271,11 +272,15 @@ def optimise_yield(
         pol = polish(fprob, best[problem.free][None, :], seed=seed, nelder_mead=1, h0=0.005)[0]
         if pol.value >= float(full_obj.evaluate(best[None, :]).value[0]):
             best = np.asarray(pol.gaps_eV, dtype=float)
+    ref_kwargs = dict(search_kwargs)
+    if reference_storage in (None, ":memory:"):
+        reference_storage = ":memory:"
+        ref_kwargs["workers"] = 1  # an in-memory study serves one process
     rsearch = optimise(
         reference_problem(problem),
         storage=reference_storage,
         progress=progress,
-        **search_kwargs,
+        **ref_kwargs,
     )
     ref_best = np.asarray(rsearch.best_gaps_eV, dtype=float)
     both = yield_from_spectra(
