@@ -172,6 +172,8 @@ def test_cli_map_with_a_site(capsys, tmp_path):
         assert (tmp_path / f"site{suffix}").exists()
     code, _, err = _run(capsys, ["map", "--weather", "demo", "--stack", "1.9", "1.4", "1.0"])
     assert code == 2 and "--stack" in err
+    code, _, err = _run(capsys, ["map", "--weather", "demo", "--spectrum", "AM0"])
+    assert code == 2 and "--spectrum" in err and "site gives the hourly spectra" in err
 
 
 def test_two_worker_processes_share_the_yield_study(site, tmp_path):

@@ -287,6 +287,27 @@ def _print(r, args, write_atomic) -> int:
     return 0
 
 
+def _refuse_spectrum_options(args: argparse.Namespace) -> None:
+    """With --weather the site gives the spectra: refuse one-spectrum options that
+    would otherwise be silently unused."""
+    from ..errors import InputError
+
+    given = []
+    if getattr(args, "spectrum_file", None):
+        given.append("--spectrum-file")
+    if getattr(args, "spectrum", "AM1.5G") != "AM1.5G":
+        given.append("--spectrum")
+    if getattr(args, "irradiance", None) is not None:
+        given.append("--irradiance")
+    if getattr(args, "concentration", 1.0) != 1.0:
+        given.append("--concentration")
+    if given:
+        raise InputError(
+            "--weather",
+            f"the site gives the hourly spectra; {', '.join(given)} cannot be used with it",
+        )
+
+
 def run_site_map(args: argparse.Namespace) -> int:
     """``gapmatch map --weather ...``: annual-energy maps of tandems at a site
     (:func:`gapmatch.energy.maps.yield_map`), series, independent and their difference,
@@ -311,6 +332,7 @@ def run_site_map(args: argparse.Namespace) -> int:
             "annual-energy maps show series, independent and their difference",
             conns,
         )
+    _refuse_spectrum_options(args)
     hs, ct = site_from_args(args)
     x = tuple(args.x_range)
     y = tuple(args.y_range) if args.y_range else x
@@ -375,6 +397,7 @@ def run_site_search(
     from ..io.atomic import write_atomic
     from ..io.finite import dumps
 
+    _refuse_spectrum_options(args)
     hs, ct = site_from_args(args)
     res = optimise_yield(
         problem,
