@@ -179,6 +179,7 @@ def test_sigkilled_worker_is_retried_and_study_resumes(pg):
     assert json.loads(again.stdout)["gaps_eV"] == first["gaps_eV"]
 
 
+@pytest.mark.filterwarnings("ignore:Heartbeat of storage is supposed to be used")
 def test_trial_killed_before_its_first_heartbeat_is_retried(pg):
     """Bug (the kill test failed once under heavy load): a worker killed between
     ``study.ask()`` and its trial's first heartbeat left a running trial without a
