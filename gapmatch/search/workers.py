@@ -184,10 +184,10 @@ def _without_heartbeat(study: optuna.Study) -> set[int]:
     try:  # optuna's table models: no public reader of heartbeat rows exists
         from optuna.storages._rdb import models
 
-        session = storage.scoped_session()
+        db = storage.scoped_session()
         try:
             rows = (
-                session.query(models.TrialModel.number)
+                db.query(models.TrialModel.number)
                 .outerjoin(
                     models.TrialHeartbeatModel,
                     models.TrialHeartbeatModel.trial_id == models.TrialModel.trial_id,
@@ -198,7 +198,7 @@ def _without_heartbeat(study: optuna.Study) -> set[int]:
                 .all()
             )
         finally:
-            session.close()
+            db.close()
     except Exception:  # noqa: BLE001 - an optuna without these models: age rule only
         return set()
     return {int(r[0]) for r in rows}
