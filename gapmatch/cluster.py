@@ -181,8 +181,9 @@ def map_chunks(
             return out
         distributed = _import_distributed()
         # hash=False: a fresh key per call, so releasing an earlier call's copy of the same
-        # object cannot cancel this one
-        remote = {k: client.scatter(v, broadcast=True, hash=False) for k, v in shared.items()}
+        # object cannot cancel this one; each value wrapped in a one-item list, so a dict,
+        # list or tuple (or an empty one) is scattered as one object, not item by item
+        remote = {k: client.scatter([v], broadcast=True, hash=False)[0] for k, v in shared.items()}
         # pure=False: every chunk is its own task even if two chunks compare equal
         futures = client.map(fn, list(chunks), pure=False, **remote)
         index = {f.key: i for i, f in enumerate(futures)}

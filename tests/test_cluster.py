@@ -139,3 +139,125 @@ def test_map_cli_on_local_cluster(tmp_path, capsys):
     assert main([*args, "--cluster", "local:2"]) == 0
     remote = json.loads(capsys.readouterr().out)
     assert remote["connections"] == local["connections"]
+
+
+@pytest.fixture(scope="module")
+def short_site():
+    from gapmatch.energy import Mounting, demo_weather_path, read_weather
+    from gapmatch.energy.spectra import hourly_spectra
+
+    hs = hourly_spectra(read_weather(demo_weather_path()), Mounting(36.0, 180.0))
+    return hs.take(slice(0, hs.hours, 7))
+
+
+def test_yield_map_on_cluster_equals_local(client, short_site):
+    """Chunks of stacks on two workers, spectra (with their photon table) scattered
+    once: bit-identical to the same chunks in this process, and equal to one unchunked
+    call of the energy API to 1e-12 (only the engine's block summation order differs)."""
+    from gapmatch.energy import CellTemperature, yield_from_spectra
+    from gapmatch.energy.maps import yield_batch, yield_map
+
+    kw = dict(cell_temperature=CellTemperature("faiman"), ere=0.5)
+    here = yield_map(short_site, (1.5, 2.1), (0.8, 1.3), 0.05, chunk_stacks=23, **kw)
+    there = yield_map(
+        short_site, (1.5, 2.1), (0.8, 1.3), 0.05, chunk_stacks=23, client=client, **kw
+    )
+    for c in ("series", "independent"):
+        assert np.array_equal(here.energy_kWh_m2[c], there.energy_kWh_m2[c], equal_nan=True)
+        assert np.array_equal(
+            here.reference_efficiency[c], there.reference_efficiency[c], equal_nan=True
+        )
+    assert here.optima == there.optima
+    gaps = here.to_frame()[["gap_1_eV", "gap_2_eV"]].to_numpy()
+    whole = yield_from_spectra(short_site, gaps, ("series", "independent"), **kw)
+    b = yield_batch(short_site, gaps, client=client, chunk_stacks=23, **kw)
+    for c in ("series", "independent"):
+        np.testing.assert_allclose(
+            b["annual_energy_kWh_m2"][c], whole.annual_energy_kWh_m2(c), rtol=1e-12
+        )
+
+
+def test_site_map_cli_on_local_cluster(capsys):
+    import json
+
+    from gapmatch.cli import main
+
+    args = ["map", "--weather", "demo", "--range", "1.6", "2.0", "--y-range", "1.0", "1.2"]
+    args += ["--step", "0.1", "--json"]
+    assert main(args) == 0
+    local = json.loads(capsys.readouterr().out)
+    assert main([*args, "--cluster", "local:2"]) == 0
+    remote = json.loads(capsys.readouterr().out)
+    assert remote["optima"] == local["optima"]
+    assert "IEC 61853" in remote["caution"]
+
+
+ROADMAP = """
+[roadmap]
+name = "cluster-test"
+title = "cluster test (fictional)"
+milestones = [2030]
+draws = 120
+seed = 5
+
+[[candidates]]
+name = "wide on Si"
+materials = ["perovskite-wide", "Si"]
+connection = "series"
+
+[[candidates]]
+name = "wide on CIGS"
+materials = ["perovskite-wide", "CIGS"]
+connection = "independent"
+
+[[projections]]
+material = "perovskite-wide"
+years = [2030]
+ere = { low = 1e-4, likely = 1e-3, high = 1e-2 }
+source = "invented for the test"
+"""
+
+
+def test_roadmap_draws_on_cluster_equal_local(client, tmp_path):
+    from gapmatch.roadmap import load_roadmap, run_roadmap
+
+    f = tmp_path / "rm.toml"
+    f.write_text(ROADMAP)
+    study = load_roadmap(f)
+    here = run_roadmap(study)
+    there = run_roadmap(study, client=client, draw_chunk=17)
+    assert len(here.outcomes) == len(there.outcomes) == 2
+    for a, b in zip(here.outcomes, there.outcomes, strict=True):
+        assert a.values.shape == (120,)
+        assert np.array_equal(a.values, b.values)
+        assert a.probability_best == b.probability_best
+
+
+def test_roadmap_cli_on_local_cluster(tmp_path, capsys):
+    import json
+
+    from gapmatch.cli import main
+
+    f = tmp_path / "rm.toml"
+    f.write_text(ROADMAP)
+    assert main(["roadmap", str(f), "--json", "--quiet"]) == 0
+    local = json.loads(capsys.readouterr().out)
+    assert main(["roadmap", str(f), "--json", "--quiet", "--cluster", "local:2"]) == 0
+    remote = json.loads(capsys.readouterr().out)
+    assert remote["milestones"] == local["milestones"]
+
+
+def _shared_kinds(k, *, empty, mapping, pair):
+    return (k, empty, mapping, pair)
+
+
+def test_shared_containers_arrive_whole(client):
+    """Bug: an empty dict in ``shared`` made Client.scatter fail (it scatters a dict's
+    items one by one); dicts, tuples and empty ones must arrive as the objects given."""
+    out = cluster.map_chunks(
+        _shared_kinds,
+        [0, 1],
+        client=client,
+        shared={"empty": {}, "mapping": {"a": 1}, "pair": ("series", "independent")},
+    )
+    assert out == [(k, {}, {"a": 1}, ("series", "independent")) for k in (0, 1)]

@@ -191,3 +191,48 @@ def test_demo_study_has_a_site():
     st = load_study(Path(__file__).resolve().parents[1] / "configs" / "demo.toml")
     assert st.site is not None and st.site.weather == str(demo_weather_path())
     assert {"site", "site-energy", "site-map"} <= set(st.sections)
+
+
+def test_mismatch_over_the_year_equals_the_direct_api(report):
+    """Monthly mismatch loss and hour x month photocurrent ratio of stack A from the
+    report's files equal a direct annual_yield call (CSV digits: 6 significant)."""
+    st, rep = report
+    direct = annual_yield(
+        demo_weather_path(),
+        [1.74, 1.12],
+        ("series", "independent"),
+        **st.site.yield_options(),
+        ere=st.conditions["ere"],
+        dark_current=st.conditions["dark_current"],
+    )
+    monthly = pd.read_csv(io.StringIO(rep.files[f"{st.name}_site_monthly.csv"]))
+    a = monthly[monthly["stack"] == "A"]
+    ms = direct.monthly_energy_kWh_m2("series")[:, 0]
+    mi = direct.monthly_energy_kWh_m2("independent")[:, 0]
+    np.testing.assert_allclose(a["mismatch_loss_pct"], 100 * (1 - ms / mi), rtol=1e-4)
+    # invariant: independent >= series in every month
+    assert (monthly["mismatch_loss_pct"] >= -1e-9).all() and (
+        monthly["mismatch_loss_pct"] < 100
+    ).all()
+    assert rep.summary["site-energy"]["monthly_mismatch_loss_pct"]["A"] == pytest.approx(
+        list(100 * (1 - ms / mi)), rel=1e-9
+    )
+    ratio = pd.read_csv(io.StringIO(rep.files[f"{st.name}_site_current_ratio.csv"]))
+    ra = ratio[ratio["stack"] == "A"]
+    assert len(ra) == 12 * 24
+    want = direct.hour_month_current_ratio(0).ravel()
+    lit = np.isfinite(want)
+    np.testing.assert_allclose(
+        ra["current_ratio_top_to_next"].to_numpy()[lit], want[lit], rtol=1e-5
+    )
+    assert ra["current_ratio_top_to_next"].isna().to_numpy()[~lit].all()
+    # the annual series-independent gap is the energy-weighted mean of the months' gaps
+    assert direct.mismatch_loss[0] == pytest.approx(1 - ms.sum() / mi.sum(), rel=1e-12)
+
+
+def test_mismatch_figures_carry_the_cautions(report):
+    _, rep = report
+    page = rep.html
+    assert "Series current-mismatch loss by month" in page
+    assert page.count("Photocurrent ratio of the top to the next junction") == 2  # stacks A and B
+    assert page.count("clear-sky spectral shapes scaled to measured irradiance") >= 3

@@ -180,3 +180,118 @@ def test_tmy2_reader_units_and_aod():
     d = hs.assumptions["defaults"]
     assert "aerosol_turbidity_500nm" not in d
     assert d["aerosol_turbidity_500nm_from_broadband"]["hours"] == hs.hours
+
+
+# ---- PVGIS typical-year files (pvlib.iotools.read_pvgis_tmy) -------------------------------
+def _pvgis_rows():
+    """The Greensboro TMY3 sample (pvlib's reader) re-written as PVGIS TMY rows: UTC
+    stamps at the start of each hour, PVGIS's column names and units (SP in Pa)."""
+    df, meta = pvlib.iotools.read_tmy3(str(demo_weather_path()), coerce_year=1990)
+    start = (df.index - pd.Timedelta(hours=1)).tz_convert("UTC")
+    rows = pd.DataFrame(
+        {
+            "time(UTC)": start.strftime("%Y%m%d:%H%M"),
+            "T2m": df["temp_air"].to_numpy(float),
+            "RH": df["relative_humidity"].to_numpy(float),
+            "G(h)": df["ghi"].to_numpy(float),
+            "Gb(n)": df["dni"].to_numpy(float),
+            "Gd(h)": df["dhi"].to_numpy(float),
+            "IR(h)": np.zeros(len(df)),
+            "WS10m": df["wind_speed"].to_numpy(float),
+            "WD10m": np.zeros(len(df)),
+            "SP": df["pressure"].to_numpy(float) * 100.0,
+        }
+    )
+    return rows, meta
+
+
+def _write_pvgis_json(path):
+    import json
+
+    rows, meta = _pvgis_rows()
+    loc = {"latitude": meta["latitude"], "longitude": meta["longitude"]}
+    loc["elevation"] = meta["altitude"]
+    doc = {
+        "inputs": {"location": loc, "meteo_data": {"radiation_db": "(test)"}},
+        "outputs": {
+            "months_selected": [{"month": m, "year": 2010} for m in range(1, 13)],
+            "tmy_hourly": rows.to_dict(orient="records"),
+        },
+        "meta": {"inputs": {"location": {"description": "test"}}, "outputs": {}},
+    }
+    path.write_text(json.dumps(doc))
+    return meta
+
+
+def _write_pvgis_csv(path):
+    rows, meta = _pvgis_rows()
+    lines = [
+        f"Latitude (decimal degrees): {meta['latitude']:.3f}",
+        f"Longitude (decimal degrees): {meta['longitude']:.3f}",
+        f"Elevation (m): {meta['altitude']:.1f}",
+        "Irradiance Time Offset (h): 0.1761",
+        "month,year",
+        *[f"{m},2010" for m in range(1, 13)],
+        rows.to_csv(index=False, lineterminator="\r\n").rstrip("\r\n"),
+        "T2m: 2-m air temperature (degree Celsius)",
+        "SP: Surface (air) pressure (Pa)",
+    ]
+    path.write_bytes("\r\n".join(lines).encode() + b"\r\n")
+    return meta
+
+
+@pytest.mark.parametrize("kind", ["json", "csv"])
+def test_pvgis_tmy_reads_as_the_same_weather(tmy, tmp_path, kind):
+    """The same hours written in PVGIS's JSON / CSV layout (as pvlib's parser reads
+    them) give the TMY3 reader's weather: values hour for hour at the same instants
+    (UTC), location from the file, format detected from the file."""
+    f = tmp_path / f"site.{kind}"
+    meta = (_write_pvgis_json if kind == "json" else _write_pvgis_csv)(f)
+    w = read_weather(f)
+    assert w.hours == 8760
+    assert w.location.latitude_deg == pytest.approx(meta["latitude"], abs=5e-4)
+    assert w.location.longitude_deg == pytest.approx(meta["longitude"], abs=5e-4)
+    assert w.location.altitude_m == pytest.approx(meta["altitude"], abs=0.05)
+    assert "PVGIS" in w.notes["weather_format"]
+    # TMY3 centres in UTC, with the 5 wrapped night hours of 31 December moved to 1990
+    t = tmy.times.tz_convert("UTC")
+    t = pd.DatetimeIndex([x.replace(year=1990) for x in t])
+    order = np.argsort(t.asi8, kind="stable")
+    assert (w.times == t[order]).all()
+    for c in ("ghi_W_m2", "dni_W_m2", "dhi_W_m2", "temp_air_C", "wind_speed_m_s"):
+        np.testing.assert_allclose(w[c], tmy[c][order], rtol=1e-12)
+    np.testing.assert_allclose(w["pressure_Pa"], tmy["pressure_Pa"][order], rtol=1e-12)
+    assert np.isnan(w["precipitable_water_cm"]).all()  # PVGIS has none
+    if kind == "csv":
+        assert "0.1761" in w.notes["irradiance_time_offset_h"]
+
+
+def test_pvgis_tmy_gives_the_same_annual_energy(tmy, tmp_path):
+    from gapmatch.energy import annual_yield
+
+    f = tmp_path / "site.json"
+    _write_pvgis_json(f)
+    ours = annual_yield(read_weather(f), [1.73, 1.12], tilt_deg=36.0)
+    # the TMY3 file has precipitable water: drop it to compare like with like
+    data = dict(tmy.data)
+    data["precipitable_water_cm"] = np.full(tmy.hours, np.nan)
+    data["aod_broadband"] = np.full(tmy.hours, np.nan)
+    data["albedo"] = np.full(tmy.hours, np.nan)
+    ref_w = type(tmy)(tmy.times, tmy.location, data, 1.0, tmy.source, dict(tmy.notes))
+    ref = annual_yield(ref_w, [1.73, 1.12], tilt_deg=36.0)
+    assert ours.hours == ref.hours
+    assert ours.annual_energy_kWh_m2("series")[0] == pytest.approx(
+        ref.annual_energy_kWh_m2("series")[0], rel=1e-9
+    )
+    assert ours.poa_irradiation_kWh_m2 == pytest.approx(ref.poa_irradiation_kWh_m2, rel=1e-9)
+
+
+def test_pvgis_bad_files_are_one_line(tmp_path):
+    from gapmatch.energy.readers import read_pvgis_tmy
+
+    f = tmp_path / "x.json"
+    f.write_text('{"inputs": {}}')
+    with pytest.raises(InputError, match="not a readable PVGIS TMY file"):
+        read_weather(f)
+    with pytest.raises(InputError, match="must be .json or .csv"):
+        read_pvgis_tmy(tmp_path / "x.epw")

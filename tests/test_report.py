@@ -49,6 +49,7 @@ def test_files_written(demo):
             f"{NAME}_search_optima.csv",
             f"{NAME}_site_energy.csv",
             f"{NAME}_site_monthly.csv",
+            f"{NAME}_site_current_ratio.csv",
             f"{NAME}_site_map.csv",
         ]
     )

@@ -10,6 +10,7 @@ from ..core.registry import CONNECTIONS
 from ..io.finite import check_frame, dumps
 from ..maps import OTHERS_MODES, compute_map
 from .commands import COMMANDS
+from .energy import add_site_arguments
 from .options import add_condition_options, condition_kwargs
 
 
@@ -82,6 +83,7 @@ def register(sub) -> None:
         help="tolerance window: absolute percent below the optimum (default 1)",
     )
     add_condition_options(p)
+    add_site_arguments(p)  # --weather etc.: annual-energy maps (gapmatch.cli.energy)
     p.add_argument(
         "--out", metavar="PREFIX", help="write PREFIX_map.csv and PREFIX_summary.json (atomically)"
     )
@@ -96,6 +98,10 @@ def register(sub) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    if getattr(args, "weather", None):  # annual energy at a site (gapmatch.cli.energy)
+        from .energy import run_site_map
+
+        return run_site_map(args)
     kw = condition_kwargs(args)
     if args.cluster:
         from ..cluster import connect

@@ -13,6 +13,7 @@ from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise
 from ..search.runner import default_study_name, shell_join
 from ..search.storage import DEFAULT_STORAGE
 from .commands import COMMANDS
+from .energy import add_site_arguments
 from .options import add_condition_options, condition_kwargs
 
 
@@ -127,6 +128,7 @@ def register(sub) -> None:
     s.add_argument("--csv", metavar="PATH", help="write every trial to this CSV file")
     s.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_condition_options(p)
+    add_site_arguments(p)  # --weather etc.: annual-energy objective (gapmatch.cli.energy)
     p.add_argument(
         "--json",
         action="store_true",
@@ -215,6 +217,10 @@ def run(args: argparse.Namespace) -> int:
     problem, default_trials, default_seed = _problem_from_args(args)
     trials = args.trials if args.trials is not None else default_trials
     seed = args.seed if args.seed is not None else default_seed
+    if getattr(args, "weather", None):  # annual energy at a site (gapmatch.cli.energy)
+        from .energy import run_site_search
+
+        return run_site_search(args, problem, trials=trials, seed=seed, study_name=args.study_name)
     study_name = args.study_name or default_study_name(problem, seed=seed, sampler=args.sampler)
     argv = ["gapmatch", *sys.argv[1:]] if sys.argv and "gapmatch" in sys.argv[0] else None
     resume = shell_join(

@@ -43,6 +43,13 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         help="also write a self-contained HTML page of the result (atomically)",
     )
     p.add_argument("--quiet", action="store_true", help="no progress bar on stderr")
+    p.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="evaluate the Monte Carlo draws on a Dask cluster: local:N (N worker "
+        "processes here) or a scheduler address tcp://HOST:PORT (needs the cluster "
+        "extra); numbers identical to one process",
+    )
     p.set_defaults(func=run)
     return p
 
@@ -115,7 +122,12 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--draws", "must be a whole number in [1, 100000]", args.draws)
     if args.seed is not None and not 0 <= args.seed < 2**32:
         raise InputError("--seed", "must be a whole number in [0, 2^32 - 1]", args.seed)
-    result = run_roadmap(study, draws=args.draws, seed=args.seed, progress=not args.quiet)
+    from ..cluster import connect
+
+    with connect(args.cluster) as client:
+        result = run_roadmap(
+            study, draws=args.draws, seed=args.seed, progress=not args.quiet, client=client
+        )
     if args.csv:
         paths = result.write_csv(args.csv)
         print(f"wrote {len(paths)} CSV files to {args.csv}", file=sys.stderr)

@@ -2,7 +2,8 @@
 
 Read a weather file (:func:`read_weather`), model its hourly in-plane spectra
 (:func:`site_spectra`), and get the annual energy of stacks in series and independent
-connection (:func:`annual_yield`, :class:`YieldResult`). Results are modelled energies of
+connection (:func:`annual_yield`, :class:`YieldResult`); search the yield-optimal gaps
+beside the AM1.5G optimum (:func:`optimise_yield`). Results are modelled energies of
 idealised cells, not energy ratings (see :data:`YIELD_CAUTION`).
 """
 
@@ -30,4 +31,15 @@ __all__ = [
     "HourlySpectra",
     "YieldResult",
     "YIELD_CAUTION",
+    "optimise_yield",
+    "YieldSearchResult",
 ]
+
+
+def __getattr__(name: str):
+    # the search front needs optuna: imported only when asked for
+    if name in ("optimise_yield", "YieldSearchResult"):
+        from . import search
+
+        return getattr(search, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

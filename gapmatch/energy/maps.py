@@ -19,7 +19,10 @@ from .api import yield_from_spectra
 from .result import YIELD_CAUTION
 from .spectra import HourlySpectra
 
-__all__ = ["YieldMap", "yield_map", "yield_map_figure"]
+__all__ = ["YieldMap", "yield_map", "yield_map_figure", "yield_batch", "DEFAULT_CHUNK_STACKS"]
+
+#: stacks per chunk of a chunked yield sweep (one task per chunk on a cluster)
+DEFAULT_CHUNK_STACKS = 4096
 
 _KINDS = ("series", "independent", "difference")
 
@@ -65,6 +68,27 @@ class YieldMap:
         """``1 - E_series / E_independent`` (fraction), ``(ny, nx)``."""
         return 1.0 - self.energy_kWh_m2["series"] / self.energy_kWh_m2["independent"]
 
+    def summary(self) -> dict:
+        """JSON-ready summary: grid, irradiation, both optima per connection (each on
+        both criteria), the largest mismatch loss, assumptions and the caution."""
+        ml = self.mismatch_loss
+        return {
+            "grid": {
+                "top_min_eV": float(self.top_eV[0]),
+                "top_max_eV": float(self.top_eV[-1]),
+                "bottom_min_eV": float(self.bottom_eV[0]),
+                "bottom_max_eV": float(self.bottom_eV[-1]),
+                "nx": int(self.top_eV.size),
+                "ny": int(self.bottom_eV.size),
+                "stacks": int(np.isfinite(self.energy_kWh_m2["series"]).sum()),
+            },
+            "poa_irradiation_kWh_m2": float(self.poa_irradiation_kWh_m2),
+            "optima": self.optima,
+            "mismatch_loss_range": [float(np.nanmin(ml)), float(np.nanmax(ml))],
+            "assumptions": self.assumptions,
+            "caution": self.caution,
+        }
+
     def to_frame(self) -> pd.DataFrame:
         """One row per grid point with a valid tandem."""
         tx, by = np.meshgrid(self.top_eV, self.bottom_eV)
@@ -98,6 +122,9 @@ def yield_map(
     top_eV=(1.4, 2.2),  # noqa: N803
     bottom_eV=(0.7, 1.4),  # noqa: N803
     step_eV: float = 0.02,  # noqa: N803
+    *,
+    client=None,
+    chunk_stacks: int = DEFAULT_CHUNK_STACKS,
     **kwargs,
 ) -> YieldMap:
     """Annual energy of a grid of tandems at a site, series and independent.
@@ -110,9 +137,14 @@ def yield_map(
         Axis ranges [eV], within 0.1-5.0.
     step_eV : float
         Grid spacing [eV], in [0.001, 0.5]; at most 401 points per axis.
+    client : distributed.Client, optional
+        Compute the chunks of stacks on a Dask cluster (:mod:`gapmatch.cluster`); the
+        numbers are bit-identical to ``client=None``.
+    chunk_stacks : int
+        Stacks per chunk (see :func:`yield_batch`).
     **kwargs
-        Passed to :func:`gapmatch.energy.yield_from_spectra` (``cell_temperature``,
-        ``ere``, ``dark_current``, gap temperature model, ``progress``).
+        Passed to :func:`yield_batch` (``cell_temperature``, ``ere``,
+        ``dark_current``, gap temperature model, ``progress``).
 
     Returns
     -------
@@ -126,14 +158,21 @@ def yield_map(
     if not ok.any():
         raise InputError("top_eV", "no grid point has the top gap above the bottom gap")
     gaps = np.column_stack([t2[ok], b2[ok]])
-    r = yield_from_spectra(spectra, gaps, ("series", "independent"), **kwargs)
+    r = yield_batch(
+        spectra,
+        gaps,
+        ("series", "independent"),
+        client=client,
+        chunk_stacks=chunk_stacks,
+        **kwargs,
+    )
     energy, ref = {}, {}
     for c in ("series", "independent"):
         e = np.full(t2.shape, np.nan)
-        e[ok] = r.annual_energy_kWh_m2(c)
+        e[ok] = r["annual_energy_kWh_m2"][c]
         energy[c] = e
         f = np.full(t2.shape, np.nan)
-        f[ok] = r.reference_efficiency[c]
+        f[ok] = r["reference_efficiency"][c]
         ref[c] = f
     optima = {}
     for c in ("series", "independent"):
@@ -148,7 +187,89 @@ def yield_map(
             }
 
         optima[c] = {"yield_optimum": point(iy), "am15g_optimum": point(ia)}
-    return YieldMap(tx, by, energy, ref, r.poa_irradiation_kWh_m2, optima, dict(r.assumptions))
+    return YieldMap(
+        tx, by, energy, ref, r["poa_irradiation_kWh_m2"], optima, dict(r["assumptions"])
+    )
+
+
+def _yield_chunk(gaps_eV, *, spectra, connections, kwargs):  # noqa: N803
+    """One chunk of a sweep (runs on a worker): annual energy [kWh m^-2 yr^-1] per
+    connection and the AM1.5G reference efficiency of the chunk's stacks."""
+    r = yield_from_spectra(spectra, gaps_eV, connections, **kwargs)
+    return (
+        {c: r.annual_energy_kWh_m2(c) for c in connections},
+        {c: r.reference_efficiency[c] for c in connections},
+        r.poa_irradiation_kWh_m2,
+        r.assumptions,
+    )
+
+
+def yield_batch(
+    spectra: HourlySpectra,
+    gaps_eV,  # noqa: N803
+    connections: tuple[str, ...] = ("series", "independent"),
+    *,
+    client=None,
+    chunk_stacks: int = DEFAULT_CHUNK_STACKS,
+    progress: bool = False,
+    **kwargs,
+) -> dict:
+    """Annual energy of many stacks, in chunks, here or on a Dask cluster.
+
+    The stacks are split into consecutive chunks of ``chunk_stacks``; every chunk is
+    computed by :func:`gapmatch.energy.yield_from_spectra` with the same inputs,
+    either in this process one after another or on the workers of ``client``, with
+    the site's spectra scattered to every worker once (:func:`gapmatch.cluster.map_chunks`).
+    The chunking is the same in both cases, so the numbers are bit-identical.
+
+    Parameters
+    ----------
+    spectra : HourlySpectra
+        The site's in-plane spectra.
+    gaps_eV : array_like
+        ``(M, N)`` gaps [eV], top first.
+    connections : tuple of str
+        Connections solved (series and independent are always added).
+    client : distributed.Client, optional
+        Dask client; ``None`` computes here.
+    chunk_stacks : int
+        Stacks per chunk, in [1, 10^6].
+    progress : bool
+        Progress bar over chunks.
+    **kwargs
+        Passed to :func:`gapmatch.energy.yield_from_spectra` (``cell_temperature``,
+        ``ere``, ``dark_current``, gap temperature model).
+
+    Returns
+    -------
+    dict
+        ``annual_energy_kWh_m2`` and ``reference_efficiency`` (AM1.5G at 25 deg C,
+        fraction): per connection, ``(M,)`` arrays; ``poa_irradiation_kWh_m2``;
+        ``assumptions``.
+    """
+    from ..api import check_gaps
+    from ..cluster import map_chunks
+
+    g = check_gaps(gaps_eV)
+    if isinstance(chunk_stacks, bool) or not 1 <= int(chunk_stacks) <= 10**6:
+        raise InputError("chunk_stacks", "must be a whole number in [1, 10^6]", chunk_stacks)
+    cs = int(chunk_stacks)
+    conns = tuple(dict.fromkeys([*connections, "series", "independent"]))
+    chunks = [g[i : i + cs] for i in range(0, g.shape[0], cs)]
+    parts = map_chunks(
+        _yield_chunk,
+        chunks,
+        client=client,
+        shared={"spectra": spectra, "connections": conns, "kwargs": kwargs},
+        progress=progress,
+        desc="yield chunks",
+    )
+    return {
+        "annual_energy_kWh_m2": {c: np.concatenate([p[0][c] for p in parts]) for c in conns},
+        "reference_efficiency": {c: np.concatenate([p[1][c] for p in parts]) for c in conns},
+        "poa_irradiation_kWh_m2": float(parts[0][2]),
+        "assumptions": dict(parts[0][3]),
+    }
 
 
 def yield_map_figure(m: YieldMap, kind: str = "series"):

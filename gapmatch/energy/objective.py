@@ -27,7 +27,11 @@ from .clusters import representative_spectra
 from .engine import run_yield
 from .spectra import HourlySpectra
 
-__all__ = ["AnnualEnergyObjective"]
+__all__ = ["AnnualEnergyObjective", "COST_PER_STACK_INTERVAL_S"]
+
+#: nominal engine time per (stack, interval) pair [s] (series, Boltzmann; about 2e6
+#: pairs per second in benchmarks/yield.py), declared to the search, never measured
+COST_PER_STACK_INTERVAL_S = 5e-7
 
 
 class AnnualEnergyObjective(Objective):
@@ -94,6 +98,9 @@ class AnnualEnergyObjective(Objective):
         )
         self._bins = 24 * (s.times.month.to_numpy() - 1) + s.times.hour.to_numpy()
         self._w = s.weights * s.interval_h
+        #: declared cost: nominal engine time per (stack, interval) pair on a 2-core
+        #: desktop (benchmarks/yield.py), times the intervals evaluated
+        self.cost_per_stack_s = COST_PER_STACK_INTERVAL_S * s.hours
 
     def evaluate(self, gaps_eV, extra=None) -> ObjectiveBatch:  # noqa: N803
         g = np.atleast_2d(np.asarray(gaps_eV, dtype=float)) * EV

@@ -35,6 +35,8 @@ References
    (2008) (end-of-hour labels; the sample files shipped with pvlib are NREL's open data).
 .. [2] EnergyPlus Auxiliary Programs, "Weather Converter Program" (EPW field
    definitions), as mapped by :func:`pvlib.iotools.read_epw`.
+.. [3] European Commission JRC, PVGIS typical meteorological year tool (JSON and CSV
+   outputs), as parsed by :func:`pvlib.iotools.read_pvgis_tmy`.
 """
 
 from __future__ import annotations
@@ -54,12 +56,13 @@ __all__ = [
     "read_tmy3",
     "read_tmy2",
     "read_epw",
+    "read_pvgis_tmy",
     "read_weather_csv",
     "read_spectra_csv",
     "demo_weather_path",
 ]
 
-WEATHER_FORMATS = ("tmy3", "tmy2", "epw", "csv")
+WEATHER_FORMATS = ("tmy3", "tmy2", "epw", "pvgis", "csv")
 _CSV_REQUIRED = ("ghi_W_m2", "dni_W_m2", "dhi_W_m2", "temp_air_C", "wind_speed_m_s")
 #: the year every typical-year file is re-stamped to (a non-leap year), so that the
 #: months taken from different years form one continuous year
@@ -313,6 +316,110 @@ def read_epw(
     return Weather(df.index + pd.Timedelta(minutes=30), loc, data, 1.0, f"EPW file {p}", notes)
 
 
+def read_pvgis_tmy(
+    path: str | Path,
+    *,
+    latitude: float | None = None,
+    longitude: float | None = None,
+    altitude_m: float | None = None,
+) -> Weather:
+    """Read a typical meteorological year from PVGIS (its JSON or CSV output).
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The PVGIS TMY file: ``.json`` (``outputformat=json``) or ``.csv``
+        (``outputformat=csv``). PVGIS's EPW output is an EPW file: read it with
+        :func:`read_epw`.
+    latitude, longitude, altitude_m : float, optional
+        Override the file's location [deg, deg, m].
+
+    Returns
+    -------
+    Weather
+        Times in UTC (PVGIS's ``time(UTC)``), at the interval centres: each row is
+        taken to cover the hour that starts at its stamp, so the sun position is
+        taken 30 min later (the irradiance time offset of the CSV header, if any, is
+        recorded in the notes, not applied). Months from different years are
+        re-stamped to one year. Surface pressure ``SP`` is in Pa, ``T2m`` in deg C,
+        ``WS10m`` in m s^-1 and ``RH`` in %, as PVGIS documents them; PVGIS gives no
+        precipitable water, aerosol optical depth or albedo (the stated defaults are
+        used, or precipitable water from temperature and humidity).
+
+    References
+    ----------
+    .. [1] T. Huld, R. Mueller and A. Gambardella, "A new solar radiation database for
+       estimating PV performance in Europe and Africa", Sol. Energy 86, 1803 (2012)
+       (PVGIS).
+    """
+    import pvlib
+
+    p = Path(path)
+    fmt = p.suffix[1:].lower()
+    if fmt not in ("json", "csv"):
+        raise InputError(
+            "weather",
+            "a PVGIS TMY file must be .json or .csv (PVGIS's EPW output: read it as epw)",
+            str(p),
+        )
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            df, meta = pvlib.iotools.read_pvgis_tmy(str(p), pvgis_format=fmt)
+    except FileNotFoundError:
+        raise InputError("weather", "file not found", str(p)) from None
+    except Exception as exc:  # pvlib raises plain errors for malformed files
+        raise InputError("weather", f"not a readable PVGIS TMY file ({exc})", str(p)) from None
+    inputs = meta.get("inputs", {}) if isinstance(meta, dict) else {}
+    where = inputs.get("location", inputs)
+    missing = [c for c in ("ghi", "dni", "dhi", "temp_air", "wind_speed") if c not in df]
+    if missing:
+        raise InputError(
+            f"weather file {p}",
+            f"missing PVGIS column(s) for {', '.join(missing)} "
+            "(expected G(h), Gb(n), Gd(h), T2m, WS10m)",
+        )
+    idx = pd.DatetimeIndex(df.index)
+    leap = (idx.month == 2) & (idx.day == 29)
+    df, idx = df[~leap], idx[~leap]
+    idx = pd.DatetimeIndex([t.replace(year=TYPICAL_YEAR) for t in idx])
+    order = np.argsort(idx.asi8, kind="stable")
+    df, idx = df.iloc[order], idx[order]
+    loc = _location(
+        where.get("latitude"),
+        where.get("longitude"),
+        where.get("elevation"),
+        "",
+        latitude,
+        longitude,
+        altitude_m,
+    )
+
+    def col(name):
+        return df[name].to_numpy(float) if name in df else np.full(len(df), np.nan)
+
+    data = {
+        "ghi_W_m2": col("ghi"),
+        "dni_W_m2": col("dni"),
+        "dhi_W_m2": col("dhi"),
+        "temp_air_C": col("temp_air"),
+        "wind_speed_m_s": col("wind_speed"),
+        "pressure_Pa": col("pressure"),
+        "relative_humidity_pct": col("relative_humidity"),
+    }
+    notes = {
+        "weather_format": f"PVGIS TMY {fmt.upper()} (pvlib.iotools.read_pvgis_tmy)",
+        "time_labels": "UTC; each row taken as the hour starting at its stamp; sun "
+        "position at the middle of each hour; hour-of-day tables in UTC",
+        "typical_year": f"months re-stamped to {TYPICAL_YEAR}"
+        + (f"; {int(leap.sum())} rows of 29 February dropped" if leap.any() else ""),
+    }
+    offset = inputs.get("irradiance time offset")
+    if offset is not None:
+        notes["irradiance_time_offset_h"] = f"{float(offset):g} (from the file; not applied)"
+    return Weather(idx + pd.Timedelta(minutes=30), loc, data, 1.0, f"PVGIS TMY file {p}", notes)
+
+
 def read_weather_csv(
     path: str | Path,
     *,
@@ -419,9 +526,11 @@ def read_weather(
     ----------
     path : str or pathlib.Path
         Weather file.
-    format : {"tmy3", "tmy2", "epw", "csv"}, optional
-        Default: ``epw`` for ``.epw`` files, ``tmy2`` for ``.tm2`` files, ``csv`` when
-        the first line names a ``timestamp`` column, ``tmy3`` otherwise.
+    format : {"tmy3", "tmy2", "epw", "pvgis", "csv"}, optional
+        Default: ``epw`` for ``.epw`` files, ``tmy2`` for ``.tm2`` files, ``pvgis`` for
+        ``.json`` files and for CSV files that open with PVGIS's ``Latitude (decimal
+        degrees):`` line, ``csv`` when the first line names a ``timestamp`` column,
+        ``tmy3`` otherwise.
     latitude, longitude, altitude_m : float, optional
         Override the file's location [deg, deg, m] (required for the plain CSV).
     tz, label
@@ -440,12 +549,17 @@ def read_weather(
             fmt = "epw"
         elif p.suffix.lower() == ".tm2":
             fmt = "tmy2"
+        elif p.suffix.lower() == ".json":
+            fmt = "pvgis"
         else:
             with open(p, encoding="utf-8", errors="replace") as fh:
                 first = fh.readline()
                 while first.startswith("#"):
                     first = fh.readline()
-            fmt = "csv" if "timestamp" in first.lower() else "tmy3"
+            if first.lower().startswith("latitude (decimal degrees)"):
+                fmt = "pvgis"
+            else:
+                fmt = "csv" if "timestamp" in first.lower() else "tmy3"
     loc = dict(latitude=latitude, longitude=longitude, altitude_m=altitude_m)
     if fmt == "tmy3":
         return read_tmy3(p, **loc)
@@ -453,6 +567,8 @@ def read_weather(
         return read_tmy2(p, **loc)
     if fmt == "epw":
         return read_epw(p, **loc)
+    if fmt == "pvgis":
+        return read_pvgis_tmy(p, **loc)
     if fmt == "csv":
         return read_weather_csv(p, tz=tz, label=label, **loc)
     raise InputError("format", f"must be one of {', '.join(WEATHER_FORMATS)}", format)

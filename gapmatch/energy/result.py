@@ -106,6 +106,14 @@ class YieldResult:
         i = self.annual_energy_kWh_m2("independent")
         return 1.0 - s / i
 
+    def monthly_mismatch_loss(self) -> np.ndarray:
+        """Energy lost to current mismatch in each month, ``1 - E_series / E_independent``
+        of the month (fraction), ``(12, M)``; NaN in a month without energy."""
+        s = self.monthly_energy_kWh_m2("series")
+        i = self.monthly_energy_kWh_m2("independent")
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(i > 0, 1.0 - s / i, np.nan)
+
     def hour_month_efficiency(self, connection: str = "series", stack: int = 0) -> np.ndarray:
         """Efficiency per (month, hour-of-day) bin (fraction), ``(12, 24)``; NaN where no
         light."""
@@ -154,6 +162,8 @@ class YieldResult:
         d = {"month": list(_MONTHS), "poa_irradiation_kWh_m2": self.monthly_poa_kWh_m2}
         for c in self.connections:
             d[f"energy_{c.replace('-', '_')}_kWh_m2"] = self.monthly_energy_kWh_m2(c)[:, stack]
+        if {"series", "independent"} <= set(self.connections):
+            d["mismatch_loss_pct"] = 100.0 * self.monthly_mismatch_loss()[:, stack]
         return pd.DataFrame(d)
 
     def hour_month_frame(self, stack: int = 0, connection: str = "series") -> pd.DataFrame:

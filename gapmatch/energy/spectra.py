@@ -155,8 +155,13 @@ class HourlySpectra:
         return trapezoid_W_m2(self.wavelength_nm, self.poa_W_m2_nm)
 
     def photon_table(self) -> PhotonTable:
-        """The (hours x energies) cumulative photon table of these spectra."""
-        return PhotonTable(self.wavelength_nm, self.poa_W_m2_nm)
+        """The (hours x energies) cumulative photon table of these spectra (built once
+        and kept, so a copy sent to a cluster worker carries it)."""
+        t = self.__dict__.get("_photon_table")
+        if t is None:
+            t = PhotonTable(self.wavelength_nm, self.poa_W_m2_nm)
+            object.__setattr__(self, "_photon_table", t)
+        return t
 
     def take(self, rows) -> HourlySpectra:
         """A subset of rows."""

@@ -160,6 +160,91 @@ def monthly_energy_figure(rows, poa_kWh_m2) -> go.Figure:  # noqa: N803
     return fig
 
 
+#: caution of the mismatch figures: what the hourly spectra are
+_SPECTRA_CAUTION = "clear-sky spectral shapes scaled to measured irradiance"
+#: most stacks that get an hour x month photocurrent-ratio figure
+MAX_RATIO_FIGURES = 4
+
+
+def monthly_mismatch_figure(rows) -> go.Figure:
+    """Energy a series (two-terminal) connection loses to current mismatch in each
+    month, against the independent connection of the same gaps [%], one line per stack.
+
+    Parameters
+    ----------
+    rows : list of (StackOfInterest, YieldResult, int)
+        Stacks with their result and row.
+    """
+    fig = go.Figure()
+    for i, (s, res, k) in enumerate(rows):
+        if len(s.gaps_eV) < 2:
+            continue
+        fig.add_trace(
+            go.Scatter(
+                x=list(_MONTHS),
+                y=100.0 * res.monthly_mismatch_loss()[:, k],
+                mode="lines+markers",
+                line=dict(color=PALETTE[i % len(PALETTE)], width=2),
+                name=esc(s.name),
+                hovertemplate=f"{esc(s.name)}<br>%{{x}}: %{{y:.2f}} % of the independent "
+                "energy<extra></extra>",
+            )
+        )
+    _base_layout(
+        fig,
+        f"Series current-mismatch loss by month [%] ({SITE_FIGURE_CAUTION}; {_SPECTRA_CAUTION})",
+        460,
+    )
+    fig.update_layout(
+        xaxis_title="month",
+        yaxis_title="1 - E<sub>series</sub> / E<sub>independent</sub> [%]",
+        yaxis=dict(rangemode="tozero"),
+    )
+    return fig
+
+
+def current_ratio_figure(name: str, res, k: int) -> go.Figure:
+    """Photocurrent of the top junction over the next one below, by hour of day and
+    month (charge-weighted in each bin): above 1 the top cell has the surplus current,
+    below 1 the lower one (a series stack then runs at the lower of the two).
+
+    Parameters
+    ----------
+    name : str
+        Stack name.
+    res : YieldResult
+        Result holding the stack.
+    k : int
+        Row of the stack in ``res``.
+    """
+    r = res.hour_month_current_ratio(k)
+    fig = go.Figure(
+        go.Heatmap(
+            x=list(range(24)),
+            y=list(_MONTHS),
+            z=np.round(r, 4),
+            zmid=1.0,
+            colorscale="RdBu",
+            colorbar=dict(title=dict(text="J<sub>top</sub> / J<sub>next</sub>")),
+            hovertemplate="%{y}, %{x}:00-%{x}:59<br>J<sub>top</sub> / J<sub>next</sub> = "
+            "%{z:.3f}<extra></extra>",
+        )
+    )
+    _base_layout(
+        fig,
+        f"Photocurrent ratio of the top to the next junction, {esc(name)} "
+        f"({SITE_FIGURE_CAUTION}; {_SPECTRA_CAUTION})",
+        440,
+    )
+    fig.update_layout(
+        xaxis_title="hour of day (the weather file's time zone, hour containing the "
+        "interval centre)",
+        yaxis_title="month",
+        yaxis=dict(autorange="reversed"),
+    )
+    return fig
+
+
 def _styled_map(m, kind: str, stacks) -> go.Figure:
     fig = yield_map_figure(m, kind)
     what = (
@@ -299,6 +384,12 @@ def site_energy_section(ctx) -> SectionOutput:
         monthly.append(mf)
     mframe = pd.concat(monthly, ignore_index=True)
     poa_monthly = rows[0][1].monthly_poa_kWh_m2
+    multi = [(s, res, k) for s, res, k in rows if len(s.gaps_eV) >= 2]
+    ratios = []
+    for s, res, k in multi:
+        hf = res.hour_month_frame(k, "series")
+        hf.insert(0, "stack", s.name)
+        ratios.append(hf)
     blocks = [
         para(
             "Annual electrical energy of each stack of interest at the site, with the two "
@@ -326,15 +417,42 @@ def site_energy_section(ctx) -> SectionOutput:
         ),
         monthly_energy_figure(rows, poa_monthly),
     ]
+    data = {"site_energy.csv": frame, "site_monthly.csv": mframe}
+    if multi:
+        blocks += [
+            para(
+                "Current mismatch over the year. A series stack delivers the current of its "
+                "weakest junction; as the spectrum reddens in the morning, evening and "
+                "winter (more air mass) and blues under cloud and diffuse light, the balance "
+                "between the junctions moves. The first figure gives the energy the series "
+                "connection loses each month against the independent connection of the "
+                "same gaps; the maps give the ratio of the top junction's photocurrent to "
+                "the next one's by hour of day and month (1 = matched). The hourly spectra "
+                "are modelled (spectrl2 clear-sky shapes scaled to the file's measured "
+                "irradiance, Ernst et al. 2016), absorbers are ideal steps, so the swings "
+                "are those of ideal cells: real absorbers with gradual absorption edges "
+                "and luminescent coupling soften them. " + SITE_FIGURE_CAUTION.capitalize() + "."
+            ),
+            monthly_mismatch_figure(multi),
+        ]
+        blocks += [current_ratio_figure(s.name, res, k) for s, res, k in multi[:MAX_RATIO_FIGURES]]
+        if len(multi) > MAX_RATIO_FIGURES:
+            blocks.append(
+                para(
+                    f"Ratio maps are drawn for the first {MAX_RATIO_FIGURES} stacks; the "
+                    "data file has all of them."
+                )
+            )
+        data["site_current_ratio.csv"] = pd.concat(ratios, ignore_index=True)
     summary = {
         "stacks": records,
+        "monthly_mismatch_loss_pct": {
+            s.name: [float(x) for x in 100.0 * res.monthly_mismatch_loss()[:, k]]
+            for s, res, k in multi
+        },
         "caution": YIELD_CAUTION,
     }
-    return SectionOutput(
-        blocks=blocks,
-        data={"site_energy.csv": frame, "site_monthly.csv": mframe},
-        summary=summary,
-    )
+    return SectionOutput(blocks=blocks, data=data, summary=summary)
 
 
 @register_section("site-map", "Annual-energy map at the site", default=False)

@@ -43,7 +43,10 @@ from .evaluator import AnnualEnergyEvaluator, EfficiencyEvaluator, Evaluator
 from .result import HEADROOM_ORDER, CandidateOutcome, RoadmapResult
 from .schema import Candidate, RoadmapStudy
 
-__all__ = ["HEADROOM_ORDER", "crn_uniforms", "run_roadmap", "design_gaps"]
+__all__ = ["HEADROOM_ORDER", "DRAW_CHUNK", "crn_uniforms", "run_roadmap", "design_gaps"]
+
+#: draws per chunk when the Monte Carlo draws go to a Dask cluster
+DRAW_CHUNK = 250
 
 
 def crn_uniforms(seed: int, material: str, parameter: str, year: int, n: int) -> np.ndarray:
@@ -304,6 +307,8 @@ def run_roadmap(
     draws: int | None = None,
     seed: int | None = None,
     progress: bool = False,
+    client: Any = None,
+    draw_chunk: int = DRAW_CHUNK,
 ) -> RoadmapResult:
     """Rank the study's candidates at every milestone under the projected uncertainties.
 
@@ -320,6 +325,14 @@ def run_roadmap(
         Seed of the draws and of the search (default the study's).
     progress : bool
         Show a progress bar on stderr.
+    client : distributed.Client, optional
+        Evaluate the Monte Carlo draws of every candidate on a Dask cluster, in chunks
+        of ``draw_chunk`` draws (:func:`gapmatch.cluster.map_chunks`); each draw is
+        evaluated by the same operations as in one process, so the values are
+        bit-identical to ``client=None``. Design searches, headroom and sensitivity
+        stay in this process.
+    draw_chunk : int
+        Draws per chunk on a cluster, in [1, 100000].
 
     Returns
     -------
@@ -393,7 +406,7 @@ def run_roadmap(
                 inputs = inputs_of(cand, year)
                 try:
                     conn, phys = _physics(study, cand, year, m, inputs)
-                    vals = evaluator(np.broadcast_to(gc, (m, gc.size)), conn, phys).value
+                    vals = _draw_values(evaluator, gc, conn, phys, m, client, draw_chunk)
                     head = _headroom(study, cand, year, gc, evaluator)
                     sens = _sensitivity(study, cand, year, gc, evaluator, inputs, vals, head)
                 except InputError as exc:
@@ -435,6 +448,50 @@ def run_roadmap(
         evaluator=evaluator,
         elapsed_s=time.perf_counter() - t0,
     )
+
+
+def _slice_physics(phys: dict, sl: slice, m: int) -> dict:
+    """The physics of draws ``sl``: per-draw arrays (leading axis ``m``) sliced, the rest
+    shared."""
+    return {
+        k: (v[sl] if isinstance(v, np.ndarray) and v.ndim >= 1 and v.shape[0] == m else v)
+        for k, v in phys.items()
+    }
+
+
+def _draw_chunk(sl, *, evaluator, gaps_cell, connection, physics, m):
+    """Values of the draws ``sl`` of one candidate (runs on a cluster worker)."""
+    n = sl.stop - sl.start
+    part = _slice_physics(physics, sl, m)
+    return np.asarray(
+        evaluator(np.broadcast_to(gaps_cell, (n, gaps_cell.size)), connection, part).value,
+        float,
+    )
+
+
+def _draw_values(evaluator, gc, conn, phys, m, client, draw_chunk):
+    """All ``m`` draws of a candidate: one batched call here, or chunks on a cluster."""
+    if client is None:
+        return evaluator(np.broadcast_to(gc, (m, gc.size)), conn, phys).value
+    from ..cluster import map_chunks
+
+    if isinstance(draw_chunk, bool) or not 1 <= int(draw_chunk) <= 100_000:
+        raise InputError("draw_chunk", "must be a whole number in [1, 100000]", draw_chunk)
+    k = int(draw_chunk)
+    chunks = [slice(i, min(i + k, m)) for i in range(0, m, k)]
+    parts = map_chunks(
+        _draw_chunk,
+        chunks,
+        client=client,
+        shared={
+            "evaluator": evaluator,
+            "gaps_cell": np.asarray(gc, float),
+            "connection": conn,
+            "physics": phys,
+            "m": m,
+        },
+    )
+    return np.concatenate(parts)
 
 
 def _replace(study, **kw):

@@ -143,8 +143,10 @@ def fail_stale_trials(study: optuna.Study) -> int:
     Database storages use optuna's heartbeats (:func:`optuna.storages.fail_stale_trials`
     with :class:`~optuna.storages.RetryFailedTrialCallback`). Trials that carry a
     ``host:pid`` tag (journal files) are failed when that process is gone on this host;
-    a trial with no tag still running after :data:`UNTAGGED_STALE_S` (its process died
-    before the objective started, so it has no heartbeat either) and one tagged on
+    a trial with no tag (and, on a database with heartbeats, no heartbeat row) still
+    running after :data:`UNTAGGED_STALE_S` (its process died between optuna creating the
+    trial and the objective starting; optuna's own rule skips trials without a
+    heartbeat) and one tagged on
     another host still running after :data:`LEGACY_STALE_S` (a journal file cannot
     watch it) are failed too.
 
@@ -155,13 +157,16 @@ def fail_stale_trials(study: optuna.Study) -> int:
     """
     with quiet_optuna():
         optuna.storages.fail_stale_trials(study)
+    silent = _without_heartbeat(study)
     now = dt.datetime.now()
     n = 0
     for t in study.get_trials(deepcopy=False, states=(_TS.RUNNING,)):
         tag = t.user_attrs.get("worker")
         alive = _alive(tag)
         age = (now - (t.datetime_start or now)).total_seconds()
-        limit = UNTAGGED_STALE_S if tag is None else LEGACY_STALE_S
+        # an untagged trial that has a heartbeat is alive (optuna's rule watches it)
+        orphan = tag is None and (silent is None or t.number in silent)
+        limit = UNTAGGED_STALE_S if orphan else LEGACY_STALE_S
         if alive is False or (alive is None and age > limit):
             try:
                 with quiet_optuna():
@@ -173,6 +178,36 @@ def fail_stale_trials(study: optuna.Study) -> int:
                 RETRY(max_retry=3)(study, frozen)
             n += 1
     return n
+
+
+def _without_heartbeat(study: optuna.Study) -> set[int] | None:
+    """Numbers of the running trials with no heartbeat row on a database storage with
+    heartbeats; None for storages without heartbeats, or if optuna's tables cannot be
+    read (then the age rule alone applies to untagged trials)."""
+    storage = getattr(study._storage, "_backend", study._storage)  # optuna's cache wrapper
+    if not isinstance(storage, optuna.storages.RDBStorage) or not storage.heartbeat_interval:
+        return None
+    try:  # optuna's table models: no public reader of heartbeat rows exists
+        from optuna.storages._rdb import models
+
+        db = storage.scoped_session()
+        try:
+            rows = (
+                db.query(models.TrialModel.number)
+                .outerjoin(
+                    models.TrialHeartbeatModel,
+                    models.TrialHeartbeatModel.trial_id == models.TrialModel.trial_id,
+                )
+                .filter(models.TrialModel.study_id == study._study_id)
+                .filter(models.TrialModel.state == _TS.RUNNING)
+                .filter(models.TrialHeartbeatModel.trial_heartbeat_id.is_(None))
+                .all()
+            )
+        finally:
+            db.close()
+    except Exception:  # noqa: BLE001 - an optuna without these models: age rule only
+        return None
+    return {int(r[0]) for r in rows}
 
 
 class TrialObjective:
