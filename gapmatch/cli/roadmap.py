@@ -22,7 +22,8 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
         help="rank candidate stacks at each milestone of a material roadmap study",
         description="Read a roadmap study (TOML), choose each candidate's best gaps at "
         "each milestone, propagate the projected uncertainties by Monte Carlo and print "
-        "the ranking: P10/P50/P90 efficiency, probability of being best, the input that "
+        "the ranking: P10/P50/P90 efficiency (annual energy for a study with a [site]), "
+        "probability of being best, the input that "
         "moves the result most. Projections are scenario assumptions, not forecasts; "
         "results are detailed-balance ceilings, not ratings.",
     )
