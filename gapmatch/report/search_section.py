@@ -7,8 +7,30 @@ resumable storage and parallel workers.
 
 from __future__ import annotations
 
+import numpy as np
+
 from .html import para, table
 from .registry import SectionOutput, register_section
+
+__all__ = ["search_section", "drop_constant_dimensions"]
+
+
+def drop_constant_dimensions(fig):
+    """Leave out parallel-coordinates axes whose values never vary (they carry no
+    information and crowd the others); returns the labels left out."""
+    dropped = []
+    for tr in fig.data:
+        if tr.type != "parcoords":
+            continue
+        keep = []
+        for d in tr.dimensions:
+            v = np.asarray(d.values, dtype=float)
+            if v.size and np.nanmax(v) - np.nanmin(v) <= 1e-12 * max(1.0, abs(np.nanmax(v))):
+                dropped.append(d.label)
+            else:
+                keep.append(d)
+        tr.dimensions = keep
+    return dropped
 
 
 @register_section("search", "Band-gap search", default=False)
@@ -84,9 +106,24 @@ def search_section(ctx) -> SectionOutput:
             caption="Best stack and distinct local optima (at least 0.05 eV apart in some gap)",
             numeric=[True, False, True, True, False],
         ),
-        history_figure(res),
-        parallel_coordinates_figure(res),
     ]
+    hist = history_figure(res)
+    # legend below the plot, clear of the axis titles
+    hist.update_layout(legend=dict(orientation="h", x=0, y=-0.22, yanchor="top"), height=480)
+    hist.update_xaxes(automargin=True)
+    blocks.append(hist)
+    par = parallel_coordinates_figure(res)
+    dropped = drop_constant_dimensions(par)
+    par.update_layout(margin=dict(l=60, r=60, t=110, b=40), height=480)
+    blocks.append(par)
+    if dropped:
+        blocks.append(
+            para(
+                "Left out of the parallel coordinates because they never vary: "
+                + ", ".join(dropped)
+                + "."
+            )
+        )
     cost_df = constraint_cost_table(costs)
     if len(cost_df):
         blocks.append(
@@ -114,7 +151,12 @@ def search_section(ctx) -> SectionOutput:
                 numeric=[False, False, True, True, True, False],
             )
         )
-        blocks.append(constraint_cost_figure(costs))
+        cost_fig = constraint_cost_figure(costs)
+        # bars start at zero: their lengths compare the efficiencies honestly
+        top = float(max(cost_df["with_pct"].max(), cost_df["without_pct"].max()))
+        cost_fig.update_yaxes(range=[0, 1.15 * top], rangemode="tozero")
+        cost_fig.update_layout(legend=dict(orientation="h", x=0, y=-0.18, yanchor="top"))
+        blocks.append(cost_fig)
     return SectionOutput(
         blocks=blocks,
         data={"search_trials.csv": res.to_frame(), "search_optima.csv": opt},

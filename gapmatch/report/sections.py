@@ -19,6 +19,7 @@ import plotly.graph_objects as go
 from ..jv import jv_curve
 from ..maps import MapResult
 from ..results import Conditions
+from . import colours as nc
 from . import figures as figs
 from .context import ReportContext
 from .html import esc, fmt, para, table
@@ -54,6 +55,34 @@ def _stack_eff(ctx: ReportContext, conn: str) -> dict[str, float]:
     }
 
 
+def power_unit(largest_W_m2: float) -> tuple[str, float]:
+    """Display unit and factor from W m^-2 for power densities up to ``largest_W_m2``:
+    kW m^-2 from 10 kW m^-2 (concentrated light), else W m^-2."""
+    return ("kW m⁻²", 1e-3) if largest_W_m2 >= 1e4 else ("W m⁻²", 1.0)
+
+
+def current_unit(largest_mA_cm2: float) -> tuple[str, float]:  # noqa: N803
+    """Display unit and factor from mA cm^-2 for current densities up to
+    ``largest_mA_cm2``: A cm^-2 from 1 A cm^-2, else mA cm^-2."""
+    return ("A cm⁻²", 1e-3) if largest_mA_cm2 >= 1e3 else ("mA cm⁻²", 1.0)
+
+
+def vm_map_note(ctx: ReportContext) -> str:
+    """Why voltage-matched connection is not on the maps although the study lists it
+    ('' when it is mapped or not asked for)."""
+    if "voltage-matched" not in ctx.study.connections:
+        return ""
+    if "voltage-matched" in ctx.study.map_connections:
+        return ""
+    return (
+        "Voltage-matched connection is in study.connections but not on these maps: it "
+        "searches the cells-per-string ratio at every grid point (about a minute for "
+        "201 x 201 points), so it is mapped only when map.connections lists it. The "
+        "stacks of interest are evaluated voltage-matched (with their cells-per-string "
+        "ratio) in the table of stacks."
+    )
+
+
 def _map_words(m: MapResult) -> str:
     if m.others == "none":
         return (
@@ -86,14 +115,19 @@ def map_section(ctx: ReportContext) -> SectionOutput:
     blocks = [
         para(_map_words(m)),
         para(
-            "Contours are iso-efficiency lines labelled in percent. The star marks the grid "
-            "optimum; the yellow line is the best-partner ridge (for each gap on the horizontal "
-            "axis, the partner gap that maximises efficiency); the dashed outline encloses every "
+            "Contours are iso-efficiency lines labelled in percent. The "
+            f"{nc.OPTIMUM.word} star marks the grid optimum; the {nc.RIDGE.word} line is the "
+            "best-partner ridge (for each gap on the horizontal axis, the partner gap that "
+            f"maximises efficiency); the dashed {nc.WINDOW_OUTLINE.word} outline encloses every "
             f"point within {ctx.tolerance_pct:g} absolute percent of the optimum. Candidate "
             "materials appear as dotted lines (fixed gaps) or shaded bands (tunable windows); "
-            "diamonds mark the stacks of interest (S1, S2, ... as in the table of stacks)."
+            f"{nc.WHITE.word} diamonds mark the stacks of interest (S1, S2, ... as in the table "
+            "of stacks)."
         ),
     ]
+    note = vm_map_note(ctx)
+    if note:
+        blocks.append(f'<p class="gm-note" role="note">{esc(note)}</p>')
     rows = []
     for c in m.connections:
         opt = m.optimum(c)
@@ -225,7 +259,8 @@ def mismatch_section(ctx: ReportContext) -> SectionOutput:
         [
             para(
                 "Ratio of the smallest to the largest junction photocurrent of the series stack "
-                "(1 = matched) under the study's spectrum. The orange line is where the two mapped "
+                "(1 = matched) under the study's spectrum. The "
+                f"{nc.MATCHED_LINE.word} line is where the two mapped "
                 "junctions generate equal photocurrent; a series stack loses the excess current of "
                 "the stronger junction away from it."
             ),
@@ -264,6 +299,10 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
     if not st.stacks:
         return SectionOutput([para("The study lists no stacks of interest.")])
     rows, frames, summ = [], [], {}
+    # concentrated light: powers in kW m^-2 and currents in A cm^-2 stay readable
+    all_d = [ctx.stack_results[(s.name, c)].stack(0) for s in st.stacks for c in st.connections]
+    p_unit, p_scale = power_unit(max(d["pmpp_W_m2"] for d in all_d))
+    j_unit, j_scale = current_unit(max((d["jsc_mA_cm2"] or 0.0) for d in all_d))
     for k, s in enumerate(st.stacks, start=1):
         for c in st.connections:
             r = ctx.stack_results[(s.name, c)]
@@ -275,34 +314,45 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
                     " / ".join(f"{g:.3f}" for g in s.gaps_eV),
                     c,
                     f"{d['efficiency_pct']:.2f}",
-                    f"{d['pmpp_W_m2']:.1f}",
+                    f"{d['pmpp_W_m2'] * p_scale:.1f}",
                     fmt(d["voc_V"], ".3f"),
-                    fmt(d["jsc_mA_cm2"], ".2f"),
+                    fmt(None if d["jsc_mA_cm2"] is None else d["jsc_mA_cm2"] * j_scale, ".2f"),
                     f"{d['ff']:.3f}",
                     f"{d['mismatch_ratio']:.3f}",
+                    " : ".join(str(n) for n in d["cells_per_string"])
+                    if d.get("cells_per_string")
+                    else "–",
                     s.note,
                 ]
             )
             f = r.to_frame()
             f.insert(0, "stack", s.name)
             frames.append(f)
-            summ.setdefault(s.name, {})[c] = {
-                k: d[k]
-                for k in (
-                    "efficiency_pct",
-                    "gaps_eV",
-                    "pmpp_W_m2",
-                    "voc_V",
-                    "jsc_mA_cm2",
-                    "ff",
-                    "mismatch_ratio",
-                )
-            }
+            entry = {"stack": s.name, "connection": c}
+            entry.update(
+                {
+                    k: d[k]
+                    for k in (
+                        "efficiency_pct",
+                        "gaps_eV",
+                        "pmpp_W_m2",
+                        "voc_V",
+                        "jsc_mA_cm2",
+                        "ff",
+                        "mismatch_ratio",
+                        "cells_per_string",
+                    )
+                    if k in d
+                }
+            )
+            summ.setdefault("results", []).append(entry)
     blocks = [
         para(
             "Each stack of interest evaluated at its exact maximum power point. For "
             "independent connection the stack has no single pair of terminals, so "
-            "V_oc and J_sc are not defined (–)."
+            "V_oc and J_sc are not defined (–). Voltage-matched results state their "
+            "cells-per-string ratio: strings of n cells of each junction, wired in parallel "
+            "at one voltage."
         ),
         table(
             [
@@ -311,15 +361,16 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
                 "gaps, top first [eV]",
                 "connection",
                 "efficiency [%]",
-                "P_mpp [W m⁻²]",
+                f"P_mpp [{p_unit}]",
                 "V_oc [V]",
-                "J_sc [mA cm⁻²]",
+                f"J_sc [{j_unit}]",
                 "FF [-]",
                 "J_min/J_max [-]",
+                "cells per string, top first",
                 "note",
             ],
             rows,
-            numeric=[False, False, True, False] + [True] * 6 + [False],
+            numeric=[False, False, True, False] + [True] * 7 + [False],
         ),
     ]
     return SectionOutput(
