@@ -26,7 +26,7 @@ from gapmatch.study import load_study, parse_study
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "configs" / "demo.toml"
-CAUTION = re.compile(r"not (a|an [a-z]+) rating|not ratings", re.I)
+CAUTION = re.compile(r"\bnot\b[^<]*\bratings?\b", re.I)
 
 
 def figures(page: str) -> list[tuple[str, dict]]:
@@ -287,3 +287,10 @@ def test_concentrated_light_in_readable_units():
     assert "P_mpp [kW m⁻²]" in body and "J_sc [A cm⁻²]" in body
     (jv,) = [s for sec, s in figures(rep.html) if sec == "jv"]
     assert "A cm<sup>-2</sup>" in jv["layout"]["yaxis"]["title"]["text"]
+
+
+def test_loss_table_and_legend_use_one_label_per_term(demo):
+    body = section_html(demo.html, "losses")
+    rows = re.findall(r"<tr><td>([^<]+)</td>", body)
+    legend = {tr["name"] for sec, s in figures(demo.html) if sec == "losses" for tr in s["data"]}
+    assert legend and legend <= set(rows), legend - set(rows)

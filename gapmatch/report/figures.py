@@ -72,10 +72,10 @@ _JUNCTION_FILL = [
 
 
 def _base_layout(fig: go.Figure, title: str, height: int = 560) -> None:
-    """The report's style (:func:`gapmatch.report.style.apply_style`) with a title,
-    height and the map background (sand where a map is blank)."""
+    """The report's style (:func:`gapmatch.report.style.apply_style`) with a title and
+    a height."""
     apply_style(fig, title, height)
-    fig.update_layout(margin=dict(l=70, r=30, t=90, b=60), plot_bgcolor="#f4f1ea")
+    fig.update_layout(margin=dict(l=70, r=30, t=90, b=60))
 
 
 def _grid_z(values: np.ndarray, keep: np.ndarray, decimals: int) -> np.ndarray:
@@ -137,6 +137,7 @@ def _map_contour(
 def _square_map_axes(fig: go.Figure, m: MapResult, x_range, y_range, **y_extra) -> None:
     """Both gap axes titled, over the given ranges [eV], with equal scales."""
     xt, yt = _axis_titles(m)
+    fig.update_layout(plot_bgcolor="#f4f1ea")  # sand where a map is blank
     fig.update_xaxes(title=xt, range=x_range, showgrid=False, constrain="domain")
     fig.update_yaxes(
         title=yt, range=y_range, showgrid=False, scaleanchor="x", constrain="domain", **y_extra
@@ -545,7 +546,7 @@ def spectrum_figure(spectrum, gaps_eV: Sequence[float], name: str = "") -> go.Fi
     title = f"spectrum and absorbed bands: {esc(name)}" if name else "spectrum"
     _base_layout(fig, title, height=470)
     fig.update_layout(
-        margin=dict(t=100),
+        margin=dict(t=130),
         xaxis=dict(title="wavelength [nm]", range=[lo_edge, hi_nm], gridcolor="#e2dccf"),
         xaxis2=dict(
             title=dict(text="photon energy [eV]", standoff=4),

@@ -259,10 +259,14 @@ def thickness_figure(sweep: ThicknessSweep, connection: str = "series") -> go.Fi
     fig.update_yaxes(
         title_text="efficiency [%]", secondary_y=False, rangemode="tozero", automargin=True
     )
+    jmax = float(np.nanmax(jph)) if jph.size else 1.0
+    step = next(s for s in (1, 2, 5, 10, 20, 50, 100, 200, 500, 1e3, 1e4, 1e5) if jmax / s <= 8)
     fig.update_yaxes(
         title_text="photocurrent [mA cm<sup>-2</sup>]",
         secondary_y=True,
-        rangemode="tozero",
+        range=[0, 1.1 * jmax],
+        tick0=0,
+        dtick=step,
         showgrid=False,
         automargin=True,
     )

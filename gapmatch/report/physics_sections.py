@@ -26,6 +26,7 @@ import numpy as np
 
 from ..api import evaluate, thickness_sweep
 from ..errors import InputError
+from ..results import LOSS_LABELS
 from .html import esc, para, table
 from .loss_figures import loss_breakdown_figure, thickness_figure
 from .registry import SectionOutput, register_section
@@ -83,7 +84,8 @@ def losses_section(ctx) -> SectionOutput:
         # one row per loss term, one column per stack (stays narrow for any term count)
         cols = [c for c in frame.columns if c.endswith("_W_m2")]
         rows = [
-            [c.removesuffix("_W_m2").replace("_", " ")]
+            # the same label per term as the figure's legend
+            [LOSS_LABELS.get(c.removesuffix("_W_m2"), c.removesuffix("_W_m2").replace("_", " "))]
             + [f"{frame.loc[i, c]:.1f}" for i in range(len(names))]
             for c in cols
         ]

@@ -58,7 +58,7 @@ TEMPLATE.layout.update(
     hoverlabel=dict(font=dict(family=FONT["family"])),
 )
 
-_CAUTION_WORDS = re.compile(r"not (a|an [a-z]+) rating|not ratings", re.I)
+_CAUTION_WORDS = re.compile(r"\bnot\b[^<]*\bratings?\b", re.I)
 
 
 def title_text(fig: go.Figure) -> str:
