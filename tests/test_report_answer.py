@@ -294,3 +294,32 @@ def test_loss_table_and_legend_use_one_label_per_term(demo):
     rows = re.findall(r"<tr><td>([^<]+)</td>", body)
     legend = {tr["name"] for sec, s in figures(demo.html) if sec == "losses" for tr in s["data"]}
     assert legend and legend <= set(rows), legend - set(rows)
+
+
+def test_voltage_matched_map_states_the_ratio_at_its_optimum():
+    st = parse_study(
+        '[study]\nname = "vmm"\ntitle = "vmm"\nconnections = ["voltage-matched"]\n'
+        'sections = ["map"]\n'
+        "[map]\nx_range_eV = [1.6, 1.8]\ny_range_eV = [1.0, 1.2]\nstep_eV = 0.1\n"
+        'connections = ["voltage-matched"]\n'
+    )
+    rep = build_report(st, progress=False)
+    opt = rep.summary["map"]["connections"]["voltage-matched"]["optimum"]["gaps_eV"]
+    ratio = gm.evaluate(opt, "voltage-matched").stack(0)["cells_per_string"]
+    words = " : ".join(map(str, ratio))
+    body = section_html(rep.html, "map")
+    assert f"at the optimum it is {words}" in body
+    (fig,) = [s for sec, s in figures(rep.html) if sec == "map"]
+    assert f"{words} cells per string" in fig["layout"]["title"]["text"]
+
+
+def test_cut_has_its_own_tolerance_window(demo):
+    cut = demo.summary["cut"]
+    ans = demo.summary["answer"]["best_top_gap"]
+    for c in ("series", "independent"):
+        assert cut[c]["tolerance_window_eV"] == ans[c]["window_eV"]
+        lo, hi = cut[c]["tolerance_window_eV"]
+        assert f"{lo:.3f}–{hi:.3f}" in section_html(demo.html, "cut")
+    (fig,) = [s for sec, s in figures(demo.html) if sec == "cut"]
+    bars = [t for t in fig["data"] if "within 1 % of its best" in t.get("name", "")]
+    assert [t["x"] for t in bars] == [cut[c]["tolerance_window_eV"] for c in cut]

@@ -472,6 +472,33 @@ def cut_figure(cut: CutResult, materials: Sequence = (), title: str = "") -> go.
     return fig
 
 
+def add_cut_windows(fig: go.Figure, cut: CutResult, windows: dict, within_pct: float) -> None:
+    """Draw each connection's tolerance window along the cut: a bar from the lowest to
+    the highest top gap within ``within_pct`` of the best, at that efficiency level.
+
+    Parameters
+    ----------
+    windows : dict
+        Connection -> (low, high) gap [eV] (see
+        :func:`gapmatch.report.summary_box.cut_window`).
+    """
+    for c, (lo, hi) in windows.items():
+        level = cut.optimum(c)[1] - within_pct
+        fig.add_trace(
+            go.Scatter(
+                x=[lo, hi],
+                y=[level, level],
+                mode="lines+markers",
+                name=f"{c}: within {within_pct:g} % of its best",
+                line=dict(color=_CONN_COLOUR.get(c, INK), width=6),
+                marker=dict(symbol="line-ns", size=14, line=dict(width=2)),
+                opacity=0.55,
+                hovertemplate=f"{c}: top gaps {lo:.3f}–{hi:.3f} eV within {within_pct:g} % "
+                "(absolute) of the best<extra></extra>",
+            )
+        )
+
+
 _E_TICKS_EV = [4.0, 3.0, 2.5, 2.0, 1.75, 1.5, 1.25, 1.0, 0.9, 0.8, 0.7, 0.6, 0.5]
 
 

@@ -55,6 +55,17 @@ def _stack_eff(ctx: ReportContext, conn: str) -> dict[str, float]:
     }
 
 
+VM = "voltage-matched"
+
+
+def _vm_ratio(ctx: ReportContext, gaps_eV) -> list[int]:
+    """Cells per string (top first) of a voltage-matched stack at the study's conditions."""
+    from ..api import evaluate
+
+    r = evaluate(list(gaps_eV), VM, ctx.illumination, **ctx.cell_options())
+    return list(r.stack(0)["cells_per_string"])
+
+
 def power_unit(largest_W_m2: float) -> tuple[str, float]:
     """Display unit and factor from W m^-2 for power densities up to ``largest_W_m2``:
     kW m^-2 from 10 kW m^-2 (concentrated light), else W m^-2."""
@@ -129,19 +140,39 @@ def map_section(ctx: ReportContext) -> SectionOutput:
     if note:
         blocks.append(f'<p class="gm-note" role="note">{esc(note)}</p>')
     rows = []
+    ratios = {c: _vm_ratio(ctx, m.optimum(c)["gaps_eV"]) for c in m.connections if c == VM}
     for c in m.connections:
         opt = m.optimum(c)
         rows.append(
-            [c, " / ".join(f"{g:.3f}" for g in opt["gaps_eV"]), f"{opt['efficiency_pct']:.2f}"]
+            [
+                c,
+                " / ".join(f"{g:.3f}" for g in opt["gaps_eV"]),
+                f"{opt['efficiency_pct']:.2f}",
+                " : ".join(map(str, ratios[c])) if c in ratios else "–",
+            ]
         )
     blocks.append(
         table(
-            ["connection", "optimum gaps, top first [eV]", "efficiency [%]"],
+            [
+                "connection",
+                "optimum gaps, top first [eV]",
+                "efficiency [%]",
+                "cells per string, top first",
+            ],
             rows,
             caption="Grid optimum per connection",
-            numeric=[False, True, True],
+            numeric=[False, True, True, True],
         )
     )
+    if ratios:
+        blocks.append(
+            para(
+                "Voltage-matched maps choose the cells-per-string ratio afresh at every "
+                "point; at the optimum it is "
+                + " : ".join(map(str, ratios[VM]))
+                + " (strings of that many cells of each junction, top first, in parallel)."
+            )
+        )
     for c in m.connections:
         w = m.tolerance_window(c, ctx.tolerance_pct)
         blocks.append(
@@ -153,7 +184,8 @@ def map_section(ctx: ReportContext) -> SectionOutput:
                 stacks=st.stacks,
                 stack_efficiency=_stack_eff(ctx, c),
                 title=f"Efficiency map, {c} connection"
-                + ("" if m.others == "none" else f" (other junctions {m.others})"),
+                + ("" if m.others == "none" else f" (other junctions {m.others})")
+                + (f", {figs.ratio_words(ratios[c])} at the optimum" if c in ratios else ""),
             )
         )
     ridges = []
@@ -381,28 +413,53 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
 @register_section("cut", "One-dimensional cut")
 def cut_section(ctx: ReportContext) -> SectionOutput:
     """Efficiency versus top gap for the fixed bottom gap."""
+    from .summary_box import cut_window
+
     cut = ctx.cut
     bg = ctx.study.cut["bottom_gap_eV"]
-    rows = [[c, f"{cut.optimum(c)[0]:.3f}", f"{cut.optimum(c)[1]:.2f}"] for c in cut.efficiency]
+    tol = ctx.tolerance_pct
+    windows = {c: cut_window(cut, c, tol) for c in cut.efficiency}
+    rows = [
+        [
+            c,
+            f"{cut.optimum(c)[0]:.3f}",
+            f"{cut.optimum(c)[1]:.2f}",
+            f"{windows[c][0]:.3f}–{windows[c][1]:.3f}",
+        ]
+        for c in cut.efficiency
+    ]
+    fig = figs.cut_figure(
+        cut, ctx.study.materials, title=f"Efficiency versus top gap, bottom gap {bg:.2f} eV"
+    )
+    figs.add_cut_windows(fig, cut, windows, tol)
     return SectionOutput(
         [
             para(
                 f"Efficiency versus the top gap with the bottom gap fixed at {bg:.2f} eV"
                 + ("" if ctx.study.n_junctions == 2 else " and the middle gaps at map.stack_eV")
-                + ". Top-cell candidates are marked."
+                + ". Top-cell candidates are marked. The cut has its own tolerance window: "
+                f"the top gaps within {tol:g} absolute percent of the cut's best point "
+                "(drawn as a bar of the connection's colour at that level)."
             ),
-            figs.cut_figure(
-                cut, ctx.study.materials, title=f"Efficiency versus top gap, bottom gap {bg:.2f} eV"
-            ),
+            fig,
             table(
-                ["connection", "best top gap [eV]", "efficiency [%]"],
+                [
+                    "connection",
+                    "best top gap [eV]",
+                    "efficiency [%]",
+                    f"top gaps within {tol:g} % [eV]",
+                ],
                 rows,
-                numeric=[False, True, True],
+                numeric=[False, True, True, True],
             ),
         ],
         data={"cut.csv": cut.to_frame()},
         summary={
-            c: {"best_top_gap_eV": cut.optimum(c)[0], "efficiency_pct": cut.optimum(c)[1]}
+            c: {
+                "best_top_gap_eV": cut.optimum(c)[0],
+                "efficiency_pct": cut.optimum(c)[1],
+                "tolerance_window_eV": list(windows[c]),
+            }
             for c in cut.efficiency
         },
     )
