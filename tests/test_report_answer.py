@@ -278,7 +278,7 @@ def test_voltage_matched_is_explained_and_ratios_are_stated():
 
 def test_concentrated_light_in_readable_units():
     st = parse_study(
-        '[study]\nname = "c"\ntitle = "c"\nsections = ["stacks", "jv"]\n'
+        '[study]\nname = "c"\ntitle = "c"\nsections = ["stacks", "jv", "losses"]\n'
         '[conditions]\nspectrum = "AM1.5D"\nconcentration = 500\n'
         '[[stacks]]\nname = "s"\ngaps_eV = [1.7, 1.12]\n'
     )
@@ -287,6 +287,7 @@ def test_concentrated_light_in_readable_units():
     assert "P_mpp [kW m⁻²]" in body and "J_sc [A cm⁻²]" in body
     (jv,) = [s for sec, s in figures(rep.html) if sec == "jv"]
     assert "A cm<sup>-2</sup>" in jv["layout"]["yaxis"]["title"]["text"]
+    assert "where the incident power goes [kW m⁻²]" in section_html(rep.html, "losses")
 
 
 def test_loss_table_and_legend_use_one_label_per_term(demo):

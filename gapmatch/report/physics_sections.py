@@ -30,6 +30,7 @@ from ..results import LOSS_LABELS
 from .html import esc, para, table
 from .loss_figures import loss_breakdown_figure, thickness_figure
 from .registry import SectionOutput, register_section
+from .sections import power_unit
 from .style import FIGURE_CAUTION, THICKNESS_CAUTION
 
 
@@ -83,17 +84,19 @@ def losses_section(ctx) -> SectionOutput:
         summary[conn] = {"max_closure_error_relative": closure}
         # one row per loss term, one column per stack (stays narrow for any term count)
         cols = [c for c in frame.columns if c.endswith("_W_m2")]
+        # concentrated light: kW m^-2 keeps the numbers readable
+        unit, scale = power_unit(float(np.nanmax(np.abs(frame[cols].to_numpy()))))
         rows = [
             # the same label per term as the figure's legend
             [LOSS_LABELS.get(c.removesuffix("_W_m2"), c.removesuffix("_W_m2").replace("_", " "))]
-            + [f"{frame.loc[i, c]:.1f}" for i in range(len(names))]
+            + [f"{frame.loc[i, c] * scale:.1f}" for i in range(len(names))]
             for c in cols
         ]
         blocks.append(
             table(
-                ["term [W m^-2]", *names],
+                [f"term [{unit}]", *names],
                 rows,
-                caption=f"{conn} connection: where the incident power goes [W m^-2]",
+                caption=f"{conn} connection: where the incident power goes [{unit}]",
                 numeric=[False] + [True] * len(names),
             )
         )
