@@ -131,3 +131,18 @@ points = 6
     escaped = "&lt;a href=&#x27;https://example.invalid/&#x27;&gt;S&lt;/a&gt;"
     for sec in ("losses", "thickness", "jv", "spectrum"):
         assert any(escaped in s for s in by_section[sec]), sec
+
+
+def test_a_new_set_removes_files_only_the_old_set_had(tmp_path):
+    two = SMALL.format(title="t", top=1.7)
+    write_report(build_report(parse_study(two), progress=False), tmp_path)
+    assert (tmp_path / "small_cut.csv").exists()
+    (tmp_path / "other_report.html").write_text("not ours")  # another study's file
+    one = two.replace('sections = ["stacks", "cut"]', 'sections = ["stacks"]')
+    write_report(build_report(parse_study(one), progress=False), tmp_path)
+    assert not (tmp_path / "small_cut.csv").exists()
+    assert (tmp_path / "other_report.html").read_text() == "not ours"
+    summary = json.loads((tmp_path / "small_summary.json").read_text())
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
+        [*summary["files"], "other_report.html"]
+    )

@@ -411,6 +411,7 @@ def write_report(report: Report, out_dir: str | Path = "reports") -> Path:
     previous report as it was, and the temporary folder is removed in every case.
     """
     d = check_output_dir(out_dir)
+    stale = _previous_set(d, report.name)
     tmp = Path(tempfile.mkdtemp(prefix=f".{report.name}.report-", dir=d))
     try:
         names = list(report.files)
@@ -422,4 +423,20 @@ def write_report(report: Report, out_dir: str | Path = "reports") -> Path:
             os.replace(tmp / fname, d / fname)
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
+    # files of the previous set that the new one does not have (e.g. a section dropped)
+    for fname in stale - {*report.files, page}:
+        (d / fname).unlink(missing_ok=True)
     return d / page
+
+
+def _previous_set(d: Path, name: str) -> set[str]:
+    """File names the previous report of study ``name`` in ``d`` lists as its own."""
+    try:
+        old = json.loads((d / f"{name}_summary.json").read_text(encoding="utf-8"))
+        files = old.get("files", [])
+    except (OSError, ValueError, AttributeError):
+        return set()
+    # only plain file names of this study (never a path elsewhere)
+    return {
+        f for f in files if isinstance(f, str) and f == Path(f).name and f.startswith(f"{name}_")
+    }
