@@ -273,7 +273,10 @@ def test_voltage_matched_is_explained_and_ratios_are_stated():
         f"string of {n} × junction {k + 1} ({g:.2f} eV)"
         for k, (n, g) in enumerate(zip(ratio, (1.7, 1.12), strict=True))
     ]
-    assert f"{words} cells per string" in rep.html  # the answer box states it too
+    # the strings share one voltage: the stack's maximum-power voltage, marked
+    vmpp = gm.evaluate([1.7, 1.12], "voltage-matched").stack(0)["vmpp_V"]
+    assert any(sh.get("x0") == pytest.approx(vmpp) for sh in jv["layout"]["shapes"])
+    assert f"with voltage-matched connection ({words} cells per string)" in rep.html
 
 
 def test_concentrated_light_in_readable_units():

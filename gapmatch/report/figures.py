@@ -677,7 +677,21 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
                 row=1,
                 col=col,
             )
-        if d.get("vmpp_V") is not None:
+        if ratio and d.get("vmpp_V") is not None:
+            # the strings share one voltage; each string's operating point is circled
+            fig.add_vline(
+                x=d["vmpp_V"],
+                line=dict(color=INK, width=1.2, dash="dot"),
+                annotation=dict(
+                    text=f"common string voltage {d['vmpp_V']:.2f} V<br>"
+                    f"{d['efficiency_pct']:.2f} %",
+                    font=dict(size=11),
+                ),
+                annotation_position="bottom left",
+                row=1,
+                col=col,
+            )
+        elif d.get("vmpp_V") is not None:
             fig.add_trace(
                 go.Scatter(
                     x=[d["vmpp_V"]],

@@ -496,7 +496,10 @@ def jv_section(ctx: ReportContext) -> SectionOutput:
             "Each junction's own J–V curve from short circuit to open circuit, with "
             "its operating point at the stack's maximum power (circles). For series "
             "connection the whole stack's curve is drawn too and its maximum power "
-            "point starred."
+            "point starred. For voltage-matched connection each junction's cells form "
+            "a string (dashed: the string's curve, n cells in series, n from the "
+            "cells-per-string ratio in the panel title); the strings work in parallel at "
+            "one common voltage (dotted line)."
         )
     ]
     for s in st.stacks:

@@ -220,7 +220,17 @@ def build_summary_box(ctx: ReportContext, caution: str) -> tuple[str, dict]:
             (x for x in stack_summ if c0 in x["efficiency_pct"]),
             key=lambda x: -x["efficiency_pct"][c0],
         )
-        if ranked:
+        if len(stack_summ) == 1:
+            one = stack_summ[0]
+            parts = []
+            for c, e in one["efficiency_pct"].items():
+                r = one.get("cells_per_string", {}).get(c)
+                parts.append(
+                    f"{e:.2f} % with {c} connection"
+                    + (f" ({' : '.join(map(str, r))} cells per string)" if r else "")
+                )
+            sentences.append(f"The stack {one['stack']} reaches " + " and ".join(parts) + ".")
+        elif ranked:
             b = ranked[0]
             sentences.append(
                 f"Of the stacks of interest, {b['stack']} is best with {c0} connection "
