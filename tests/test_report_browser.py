@@ -255,10 +255,11 @@ def _measure(chromium: str, page: Path, tmp: Path, width: int) -> dict[str, str]
     return dict(re.findall(r'(data-gm-[a-z-]+)="([^"]*)"', body))
 
 
-def test_no_sideways_scrolling_at_1024_px(chromium, rendered, tmp_path):
+@pytest.mark.parametrize("width", [1024, 1400])
+def test_no_sideways_scrolling(chromium, rendered, tmp_path, width):
     _, _, page = rendered
-    m = _measure(chromium, page, tmp_path, 1024)
-    assert int(m["data-gm-viewport"]) >= 1000
+    m = _measure(chromium, page, tmp_path, width)
+    assert int(m["data-gm-viewport"]) >= width - 24
     assert int(m["data-gm-scroll-width"]) <= int(m["data-gm-viewport"]), m
 
 
