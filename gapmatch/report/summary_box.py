@@ -132,7 +132,7 @@ def build_summary_box(ctx: ReportContext, caution: str) -> tuple[str, dict]:
             summ["independent_gain_at_series_best_pct"] = float(gain)
             sentences.append(
                 f"At the series optimum, independent (four-terminal) wiring adds {gain:.2f} % "
-                "absolute; away from current matching the gap widens (see the cut)."
+                "absolute; away from current matching the difference grows (see the cut)."
             )
         header = ["candidate", "gaps, top first [eV]"] + [f"{c} [%]" for c in cut_conns]
         numeric = [False, True] + [True] * len(cut_conns)
