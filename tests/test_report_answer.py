@@ -327,3 +327,18 @@ def test_cut_has_its_own_tolerance_window(demo):
     (fig,) = [s for sec, s in figures(demo.html) if sec == "cut"]
     bars = [t for t in fig["data"] if "within 1 % of its best" in t.get("name", "")]
     assert [t["x"] for t in bars] == [cut[c]["tolerance_window_eV"] for c in cut]
+
+
+@pytest.mark.slow
+def test_voltage_matched_search_states_the_ratio():
+    st = parse_study(
+        '[study]\nname = "vs"\ntitle = "vs"\nconnections = ["voltage-matched"]\n'
+        'sections = ["search"]\n'
+        '[search]\njunctions = 2\nconnection = "voltage-matched"\ntrials = 12\nseed = 3\n'
+        "bounds_eV = [1.0, 2.0]\n"
+    )
+    rep = build_report(st, progress=False)
+    s = rep.summary["search"]
+    ratio = gm.evaluate(s["best_gaps_eV"], "voltage-matched").stack(0)["cells_per_string"]
+    assert s["cells_per_string"] == ratio
+    assert f"{' : '.join(map(str, ratio))} cells per string" in section_html(rep.html, "search")

@@ -11,6 +11,7 @@ import numpy as np
 
 from .html import para, table
 from .registry import SectionOutput, register_section
+from .sections import _vm_ratio
 
 __all__ = ["search_section", "drop_constant_dimensions"]
 
@@ -63,6 +64,8 @@ def search_section(ctx) -> SectionOutput:
     costs = constraint_costs(problem, res.best_gaps_eV, res.best_value, seed=cfg["seed"])
     best = res.best
     n = problem.n_junctions
+    # a voltage-matched result states its cells-per-string ratio
+    ratio = _vm_ratio(ctx, best["gaps_eV"]) if problem.connection == "voltage-matched" else None
     opt = optima_table(res)
     gap_cols = [c for c in opt.columns if c.startswith("gap_")]
     value_col = next(c for c in opt.columns if c.endswith("_pct") and c != "delta_pct")
@@ -92,7 +95,8 @@ def search_section(ctx) -> SectionOutput:
         ),
         para(
             f"Best stack: {' / '.join(f'{g:.4f}' for g in best['gaps_eV'])} eV, efficiency "
-            f"{best['efficiency_pct']:.3f} %."
+            f"{best['efficiency_pct']:.3f} %"
+            + (f", {' : '.join(map(str, ratio))} cells per string (top first)." if ratio else ".")
         ),
         table(
             [
@@ -165,5 +169,6 @@ def search_section(ctx) -> SectionOutput:
             "best_efficiency": best["efficiency"],
             "alternatives": res.alternatives,
             "trials": res.n_trials,
+            **({"cells_per_string": ratio} if ratio else {}),
         },
     )
