@@ -218,6 +218,8 @@ def test_search_figures_zero_based_costs_and_varying_axes(demo):
     specs = [s for sec, s in figures(demo.html) if sec == "search"]
     bars = [s for s in specs if any(t["type"] == "bar" for t in s["data"])]
     assert bars and bars[0]["layout"]["yaxis"]["range"][0] == 0
+    # drawn in the report's named colours, like every other figure
+    assert all(nc.word_of(t["marker"]["color"]) for t in bars[0]["data"])
     (par,) = [s for s in specs if s["data"][0]["type"] == "parcoords"]
     for d in par["data"][0]["dimensions"]:
         v = np.asarray(d["values"], float) if isinstance(d["values"], list) else None

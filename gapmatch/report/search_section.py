@@ -9,11 +9,34 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import colours as nc
 from .html import para, table
 from .registry import SectionOutput, register_section
 from .sections import _vm_ratio
 
 __all__ = ["search_section", "drop_constant_dimensions"]
+
+
+#: trace name -> report colour (the search package draws in colours of its own)
+_SEARCH_COLOURS = {
+    "feasible trial": nc.BLUE,
+    "polished optimum": nc.VERMILION,
+    "best so far": nc.VERMILION,
+    "with the constraint": nc.BLUE,
+    "without it (re-optimised)": nc.ORANGE,
+}
+
+
+def _recolour(fig) -> None:
+    """Draw the search figures in the report's named colours."""
+    for tr in fig.data:
+        c = _SEARCH_COLOURS.get(tr.name)
+        if c is None:
+            continue
+        if tr.type == "bar" or tr.mode == "markers":
+            tr.marker.color = c.hex
+        else:
+            tr.line.color = c.hex
 
 
 def drop_constant_dimensions(fig):
@@ -112,12 +135,16 @@ def search_section(ctx) -> SectionOutput:
         ),
     ]
     hist = history_figure(res)
+    _recolour(hist)
     # legend below the plot, clear of the axis titles
     hist.update_layout(legend=dict(orientation="h", x=0, y=-0.22, yanchor="top"), height=480)
     hist.update_xaxes(automargin=True)
     blocks.append(hist)
     par = parallel_coordinates_figure(res)
     dropped = drop_constant_dimensions(par)
+    for tr in par.data:
+        for d in tr.dimensions:
+            d.tickformat = ".3g"  # no six-digit range labels at the ends
     par.update_layout(margin=dict(l=60, r=60, t=110, b=40), height=480)
     blocks.append(par)
     if dropped:
@@ -156,6 +183,7 @@ def search_section(ctx) -> SectionOutput:
             )
         )
         cost_fig = constraint_cost_figure(costs)
+        _recolour(cost_fig)
         # bars start at zero: their lengths compare the efficiencies honestly
         top = float(max(cost_df["with_pct"].max(), cost_df["without_pct"].max()))
         cost_fig.update_yaxes(range=[0, 1.15 * top], rangemode="tozero")
