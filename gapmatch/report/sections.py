@@ -148,20 +148,16 @@ def map_section(ctx: ReportContext) -> SectionOutput:
                 c,
                 " / ".join(f"{g:.3f}" for g in opt["gaps_eV"]),
                 f"{opt['efficiency_pct']:.2f}",
-                " : ".join(map(str, ratios[c])) if c in ratios else "–",
             ]
+            + ([" : ".join(map(str, ratios[c])) if c in ratios else "–"] if ratios else [])
         )
     blocks.append(
         table(
-            [
-                "connection",
-                "optimum gaps, top first [eV]",
-                "efficiency [%]",
-                "cells per string, top first",
-            ],
+            ["connection", "optimum gaps, top first [eV]", "efficiency [%]"]
+            + (["cells per string, top first"] if ratios else []),
             rows,
             caption="Grid optimum per connection",
-            numeric=[False, True, True, True],
+            numeric=[False, True, True] + ([True] if ratios else []),
         )
     )
     if ratios:

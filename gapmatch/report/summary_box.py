@@ -251,7 +251,12 @@ def build_summary_box(ctx: ReportContext, caution: str) -> tuple[str, dict]:
                 + " eV"
                 for c in m.connections
             )
-            sentences.append(f"For reference, with no gap fixed the map's optimum is {ref}.")
+            where = (
+                "with no gap fixed the map's optimum"
+                if m.others == "none"
+                else f"the map's optimum (other junctions {m.others}, see the maps)"
+            )
+            sentences.append(f"For reference, {where} is {ref}.")
             summ["unconstrained_optimum"] = {c: m.optimum(c)["gaps_eV"] for c in m.connections}
         elif set(st.sections) & _MAP_SECTIONS or not st.sections:
             m = ctx.map
