@@ -66,6 +66,20 @@ def _vm_ratio(ctx: ReportContext, gaps_eV) -> list[int]:
     return list(r.stack(0)["cells_per_string"])
 
 
+def _drop_empty_columns(header, rows, numeric, optional) -> str:
+    """A table without the ``optional`` columns that are empty ('' or –) in every row."""
+    keep = [
+        k
+        for k, h in enumerate(header)
+        if h not in optional or any(str(r[k]) not in ("", "–") for r in rows)
+    ]
+    return table(
+        [header[k] for k in keep],
+        [[r[k] for k in keep] for r in rows],
+        numeric=[numeric[k] for k in keep],
+    )
+
+
 def power_unit(largest_W_m2: float) -> tuple[str, float]:
     """Display unit and factor from W m^-2 for power densities up to ``largest_W_m2``:
     kW m^-2 from 10 kW m^-2 (concentrated light), else W m^-2."""
@@ -382,7 +396,7 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
             "cells-per-string ratio: strings of n cells of each junction, wired in parallel "
             "at one voltage."
         ),
-        table(
+        _drop_empty_columns(
             [
                 "mark",
                 "stack",
@@ -398,7 +412,8 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
                 "note",
             ],
             rows,
-            numeric=[False, False, True, False] + [True] * 7 + [False],
+            [False, False, True, False] + [True] * 7 + [False],
+            optional=("cells per string, top first", "note"),
         ),
     ]
     return SectionOutput(
