@@ -329,7 +329,7 @@ def materials_section(ctx: ReportContext) -> SectionOutput:
                 "Materials as given in the study file. They are drawn on the maps "
                 "and the one-dimensional cut."
             ),
-            table(["material", "band gap", "role (study key materials.role)", "note"], rows),
+            table(["material", "band gap", "role", "note"], rows),
         ]
     )
 
