@@ -252,10 +252,14 @@ def test_voltage_matched_map_only_on_request():
         + '[[stacks]]\nname = "s"\ngaps_eV = [1.7, 1.12]\n'
     )
     rep = build_report(st, progress=False)
-    vm = gm.evaluate([1.7, 1.12], "voltage-matched").efficiency[0]
-    assert rep.summary["stacks"]["s"]["voltage-matched"]["efficiency_pct"] == pytest.approx(
-        100 * vm, rel=1e-12
-    )
+    ref = gm.evaluate([1.7, 1.12], "voltage-matched")
+    (row,) = [r for r in rep.summary["stacks"]["results"] if r["connection"] == "voltage-matched"]
+    assert row["stack"] == "s"
+    assert row["efficiency_pct"] == pytest.approx(100 * ref.efficiency[0], rel=1e-12)
+    # every voltage-matched result states its cells-per-string ratio (page and JSON)
+    ratio = ref.stack(0)["cells_per_string"]
+    assert row["cells_per_string"] == ratio
+    assert " : ".join(map(str, ratio)) in rep.html
 
 
 @pytest.mark.filterwarnings("error")

@@ -56,7 +56,7 @@ def chromium():
     return path
 
 
-def _dump_dom(chromium: str, page: Path, profile: Path) -> str:
+def _dump_dom(chromium: str, page: Path, profile: Path, width: int = 1280) -> str:
     cmd = [
         chromium,
         "--headless",
@@ -69,7 +69,8 @@ def _dump_dom(chromium: str, page: Path, profile: Path) -> str:
         "--disable-sync",
         f"--user-data-dir={profile}",
         "--virtual-time-budget=10000",
-        "--window-size=1280,2000",
+        f"--window-size={width},2000",
+        "--hide-scrollbars",
         "--dump-dom",
         page.resolve().as_uri(),
     ]
@@ -86,6 +87,7 @@ class _Figures(HTMLParser):
         super().__init__(convert_charrefs=True)
         self.stack: list[str | None] = []  # figure id owning each open element
         self.figures: dict[str, int] = {}
+        self.drawn: dict[str, int] = {}  # path/text elements inside each figure's SVG
         self.errors_count: str | None = None
         self.in_errors = False
         self.errors_text = ""
@@ -117,6 +119,8 @@ class _Figures(HTMLParser):
             self.figures.setdefault(owner, 0)
         if tag == "svg" and owner is not None:
             self.figures[owner] += 1
+        if tag in ("path", "text", "rect") and owner is not None:
+            self.drawn[owner] = self.drawn.get(owner, 0) + 1
         if tag == "pre" and a.get("id") == "gm-console-errors":
             self.errors_count = a.get("data-count")
             self.in_errors = True
@@ -131,6 +135,8 @@ class _Figures(HTMLParser):
         owner = self.stack[-1] if self.stack else None
         if tag == "svg" and owner is not None:
             self.figures[owner] += 1
+        if tag in ("path", "text", "rect") and owner is not None:
+            self.drawn[owner] = self.drawn.get(owner, 0) + 1
 
     def handle_endtag(self, tag):
         if tag == "pre":
@@ -183,6 +189,9 @@ def test_every_figure_rendered_as_svg(rendered):
     assert p.rendered == str(expected)
     empty = [k for k, n in p.figures.items() if n == 0]
     assert not empty, f"figures without SVG: {empty}"
+    # and every SVG draws something (paths, texts), not an empty frame
+    blank = [k for k in p.figures if p.drawn.get(k, 0) < 10]
+    assert not blank, f"figures whose SVG draws almost nothing: {blank}"
 
 
 def test_markup_in_names_shows_as_text(rendered):
@@ -211,3 +220,88 @@ def test_error_recorder_catches_errors(chromium, tmp_path):
     p.feed(_dump_dom(chromium, page, tmp_path / "profile"))
     assert p.errors_count == "2"
     assert "boom" in p.errors_text and "undefinedFunction" in p.errors_text
+
+
+# ---- layout at 1024 px: no sideways scrolling, and a screenshot for a human look --------
+# Appended to a copy of the page: once every plot is drawn, record the page's scroll
+# width, the viewport width and the widest element that sticks out, on <body>.
+_MEASURE = """<script>
+(function(){
+  function measure(){
+    var de=document.documentElement, vw=window.innerWidth, worst='', w=0;
+    document.querySelectorAll('body *').forEach(function(el){
+      var r=el.getBoundingClientRect();
+      if(r.right>vw+1&&r.right>w){w=r.right;worst=el.tagName+'.'+el.className+'#'+el.id;}});
+    document.body.setAttribute('data-gm-scroll-width',String(de.scrollWidth));
+    document.body.setAttribute('data-gm-viewport',String(vw));
+    document.body.setAttribute('data-gm-height',String(de.scrollHeight));
+    document.body.setAttribute('data-gm-widest',worst);
+  }
+  function wait(){ if(document.body.hasAttribute('data-gm-rendered')||
+    !document.querySelector('.gm-figure')){measure();} else {setTimeout(wait,100);} }
+  window.addEventListener('load',wait);
+})();
+</script>"""
+
+
+def _measure(chromium: str, page: Path, tmp: Path, width: int) -> dict[str, str]:
+    probe = tmp / f"measure-{page.name}"
+    probe.write_text(
+        page.read_text(encoding="utf-8").replace("</body>", _MEASURE + "</body>"),
+        encoding="utf-8",
+    )
+    dom = _dump_dom(chromium, probe, tmp / "profile-measure", width=width)
+    body = re.search(r"<body([^>]*)>", dom).group(1)
+    return dict(re.findall(r'(data-gm-[a-z-]+)="([^"]*)"', body))
+
+
+@pytest.mark.parametrize("width", [1024, 1400])
+def test_no_sideways_scrolling(chromium, rendered, tmp_path, width):
+    _, _, page = rendered
+    m = _measure(chromium, page, tmp_path, width)
+    assert int(m["data-gm-viewport"]) >= width - 24
+    assert int(m["data-gm-scroll-width"]) <= int(m["data-gm-viewport"]), m
+
+
+def test_overflow_check_can_fail(chromium, tmp_path):
+    # negative control: a page wider than the window is seen as overflowing
+    page = tmp_path / "wide.html"
+    page.write_text(
+        '<!DOCTYPE html><html><body><nav style="white-space:nowrap">'
+        + "".join(f'<a href="#x">{k}. a long section title</a>' for k in range(30))
+        + "</nav></body></html>",
+        encoding="utf-8",
+    )
+    m = _measure(chromium, page, tmp_path, 1024)
+    assert int(m["data-gm-scroll-width"]) > int(m["data-gm-viewport"])
+    assert m["data-gm-widest"].startswith(("NAV", "A"))
+
+
+def test_screenshot_at_1024_px(chromium, rendered, tmp_path):
+    """Whole-page screenshot at 1024 px, kept as a test artefact (not committed) under
+    reports/screenshots/ for a human look."""
+    _, _, page = rendered
+    height = int(_measure(chromium, page, tmp_path, 1024)["data-gm-height"])
+    shots = ROOT / "reports" / "screenshots"
+    shots.mkdir(parents=True, exist_ok=True)
+    png = shots / "demo-1024.png"
+    png.unlink(missing_ok=True)
+    cmd = [
+        chromium,
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--no-first-run",
+        "--hide-scrollbars",
+        f"--user-data-dir={tmp_path / 'profile-shot'}",
+        "--virtual-time-budget=15000",
+        f"--window-size=1024,{min(height + 40, 30000)}",
+        f"--screenshot={png}",
+        page.resolve().as_uri(),
+    ]
+    res = subprocess.run(cmd, capture_output=True, text=True, timeout=240, check=False)
+    assert res.returncode == 0, res.stderr[-2000:]
+    data = png.read_bytes()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    w, h = int.from_bytes(data[16:20], "big"), int.from_bytes(data[20:24], "big")
+    assert w == 1024 and h > 5000

@@ -8,6 +8,8 @@ import sys
 
 from ..errors import InputError
 from ..report import build_report, write_report
+from ..report.builder import check_output_dir
+from ..report.style import REPORT_CAUTION
 from ..study import load_study
 from .commands import COMMANDS
 
@@ -18,7 +20,8 @@ def register(sub) -> None:
         help=COMMANDS["report"],
         description="Validate a study file, compute every section it lists and write "
         "<out-dir>/<study-name>.html (self-contained, works offline) with CSV and JSON "
-        "data files beside it. Nothing is written if the study is invalid.",
+        "data files beside it. Nothing is written if the study is invalid. Every key of "
+        "a study file is described in docs/study-file.md. Caution: " + REPORT_CAUTION,
     )
     p.add_argument("study", metavar="STUDY.toml", help="study file, e.g. configs/demo.toml")
     p.add_argument(
@@ -43,6 +46,7 @@ def run(args: argparse.Namespace) -> int:
         if sys.argv and sys.argv[0].endswith(("gapmatch", "__main__.py"))
         else f"gapmatch report {shlex.quote(args.study)}"
     )
+    check_output_dir(args.out_dir)  # before anything is computed
     rep = build_report(study, command=command, progress=not args.quiet)
     path = write_report(rep, args.out_dir)
     print(

@@ -3,7 +3,10 @@
 The pieces: :mod:`.registry` (section names, titles, builders), :mod:`.context` (what a
 builder gets), :mod:`.html` (escaping and tables), :mod:`.sections` and the section
 modules beside it (the built-in sections), :mod:`.figures` and :mod:`.loss_figures`
-(plotly figures that only draw), :mod:`.builder` (the page).
+(plotly figures that only draw), :mod:`.colours` (named colours and the words captions
+use for them), :mod:`.style` (the one figure style and the cautions),
+:mod:`.summary_box` (the answer to the study's question at the top of the page),
+:mod:`.builder` (the page, written as one set of files).
 
 >>> from gapmatch.study import load_study                      # doctest: +SKIP
 >>> from gapmatch.report import build_report, write_report     # doctest: +SKIP

@@ -2,15 +2,24 @@
 
 :func:`build_report` runs the selected sections of a study (progress per section on
 stderr) and returns a :class:`Report` held in memory; :func:`write_report` then writes
-the data files and the page, each atomically, so that an error while computing leaves
-nothing behind and a crash never leaves half a file.
+every file of the report into a temporary folder beside the target and moves the
+finished set into place (data files first, the page last), so that an error while
+computing or writing leaves the previous report untouched and no temporary file behind.
+Every file of one set carries the same set id (``report_set`` in the summary, a
+``<meta>`` in the page), so a reader can tell which set a page belongs to.
+:func:`check_output_dir` tells, before anything is computed, whether the target folder
+can be written.
 """
 
 from __future__ import annotations
 
 import json
+import os
+import shutil
 import sys
+import tempfile
 import time
+import uuid
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -20,13 +29,16 @@ import plotly.graph_objects as go
 import plotly.io as pio
 from plotly.offline import get_plotlyjs
 
+from ..errors import InputError
 from ..io.atomic import write_atomic
 from ..study import Study
 from .context import ReportContext
 from .html import esc
 from .registry import SECTIONS, SectionOutput, check_section_names
+from .style import REPORT_CAUTION, finish_figure, slug, title_text
+from .summary_box import build_summary_box
 
-__all__ = ["Report", "build_report", "write_report", "render_page"]
+__all__ = ["Report", "build_report", "write_report", "render_page", "check_output_dir"]
 
 _CSS = """
 :root{--ink:#1f2a30;--paper:#fbfaf6;--sand:#f4f1ea;--rule:#c9c2b4;--accent:#0f5e63;
@@ -41,8 +53,18 @@ header.gm-head .gm-meta{opacity:.9;font-size:14px}
 header.gm-head .gm-brand{font-size:12px;letter-spacing:2px;text-transform:uppercase;opacity:.8}
 nav.gm-toc{padding:10px 6vw;background:var(--sand);border-bottom:1px solid var(--rule);
 font-size:14px}
-nav.gm-toc a{color:var(--accent);margin-right:16px;text-decoration:none;white-space:nowrap}
+nav.gm-toc{display:flex;flex-wrap:wrap;gap:4px 16px}
+nav.gm-toc a{color:var(--accent);text-decoration:none}
+aside.gm-answer{border:2px solid var(--accent);background:#fff;padding:6px 18px 4px;
+margin:16px 0 10px;max-width:1000px}
+aside.gm-answer h2{margin-top:6px}
+aside.gm-answer p{max-width:900px}
+.gm-small{font-size:13px;color:var(--muted)}
+.gm-warn{border-left:5px solid #b00020;background:#fdecee;padding:4px 16px;margin:8px 0}
+.gm-note{border-left:5px solid var(--accent2);background:#fff6ea;padding:6px 14px}
+.gm-table-wrap{max-width:100%;overflow-x:auto}
 main{padding:8px 6vw 30px;max-width:1250px}
+main p,main li{overflow-wrap:anywhere}
 section.gm-section{margin:26px 0 34px;border-top:1px solid var(--rule);padding-top:8px}
 h2{font-size:21px;color:var(--accent);margin:10px 0 8px;font-weight:600}
 h2 .gm-num{color:var(--accent2);margin-right:8px}
@@ -102,7 +124,7 @@ _RENDER = """
   nodes.forEach(function(n){
     var spec=JSON.parse(n.textContent);
     var div=document.getElementById(n.getAttribute('data-target'));
-    jobs.push(Plotly.newPlot(div,spec.data,spec.layout,
+    jobs.push(Plotly.newPlot(div,spec.data,spec.layout,spec.config||
       {responsive:true,displaylogo:false,toImageButtonOptions:{format:'svg'}}));
   });
   Promise.all(jobs).then(function(){document.body.setAttribute('data-gm-rendered',
@@ -140,16 +162,30 @@ class Report:
         return len(self.html.encode("utf-8"))
 
 
-def _json_for_script(fig: go.Figure) -> str:
+def _json_for_script(fig: go.Figure, config: dict | None = None) -> str:
     text = pio.to_json(fig, validate=False, pretty=False)
+    if config is not None:  # the figure's plotly config travels with it
+        text = text[:-1] + ',"config":' + json.dumps(config) + "}"
     # inside <script>: no "</script>" or "<!--" can appear once every '<' is escaped
     return text.replace("<", "\\u003c").replace(">", "\\u003e").replace("&", "\\u0026")
 
 
 def render_page(
-    study: Study, outputs: list[tuple[str, str, SectionOutput]], *, footer: dict, files: list[str]
+    study: Study,
+    outputs: list[tuple[str, str, SectionOutput]],
+    *,
+    footer: dict,
+    files: list[str],
+    answer: str = "",
+    report_set: str = "",
 ) -> str:
-    """Assemble the page from section outputs ``(name, title, output)``."""
+    """Assemble the page from section outputs ``(name, title, output)``.
+
+    Every figure goes through :func:`gapmatch.report.style.finish_figure` (the one
+    style, a caution in its title, no repeated legend entries, a download file name);
+    ``answer`` (safe HTML, the summary box) comes before the first section;
+    ``report_set`` is recorded in a ``<meta name="gapmatch-report-set">``.
+    """
     parts: list[str] = []
     toc: list[str] = []
     nfig = 0
@@ -161,11 +197,15 @@ def render_page(
             if isinstance(b, go.Figure):
                 nfig += 1
                 fid = f"gm-fig-{nfig}"
+                fname = f"{study.name}_{name}_{nfig}_{slug(title_text(b))}"
+                config = finish_figure(b, filename=fname)
                 body.append(f'<div class="gm-figure" id="{fid}" data-section="{esc(name)}"></div>')
                 body.append(
                     f'<script type="application/json" class="gm-figure-data" '
-                    f'data-target="{fid}">{_json_for_script(b)}</script>'
+                    f'data-target="{fid}">{_json_for_script(b, config)}</script>'
                 )
+            elif isinstance(b, str) and b.startswith("<table"):
+                body.append(f'<div class="gm-table-wrap">{b}</div>')
             else:
                 body.append(str(b))
         parts.append(
@@ -180,13 +220,14 @@ def render_page(
         '<!DOCTYPE html>\n<html lang="en"><head><meta charset="utf-8">'
         '<meta name="viewport" content="width=device-width, initial-scale=1">'
         f'<meta name="generator" content="gapmatch {esc(footer.get("gapmatch version", ""))}">'
+        f'<meta name="gapmatch-report-set" content="{esc(report_set)}">'
         f"<title>{esc(study.title)}</title><style>{_CSS}</style>"
         f"<script>{_ERROR_HOOK}</script>"
         f"<script>{get_plotlyjs()}</script></head><body>"
         '<header class="gm-head"><div class="gm-brand">gapmatch · detailed-balance study</div>'
         f'<h1>{esc(study.title)}</h1><div class="gm-meta">{meta}</div></header>'
-        f'<nav class="gm-toc" aria-label="contents">{"".join(toc)}</nav>'
-        f"<main>{desc}"
+        f'<nav class="gm-toc" aria-label="contents">{" ".join(toc)}</nav>'
+        f"<main>{desc}{answer}"
         '<p class="gm-lead"><strong>Theoretical limits, not ratings.</strong> Every '
         "efficiency below is the detailed-balance ceiling of idealised cells under the "
         "stated assumptions; see the cautions at the end.</p>"
@@ -238,7 +279,10 @@ def build_report(
     if "assumptions" not in names:  # the cautions are not optional
         names.append("assumptions")
     outputs = []
+    report_set = uuid.uuid4().hex
     summary: dict = {
+        "caution": REPORT_CAUTION,
+        "report_set": report_set,
         "study": {
             "name": study.name,
             "title": study.title,
@@ -286,11 +330,22 @@ def build_report(
         "command": command or "(Python API)",
         "libraries": _library_versions(),
     }
-    summary["reproducibility"] = footer
+    answer, answer_summary = build_summary_box(ctx, REPORT_CAUTION)
+    summary["answer"] = answer_summary
+    summary["reproducibility"] = {_key(k): v for k, v in footer.items()}
     sname = f"{study.name}_summary.json"
+    summary["files"] = sorted([*files, sname, f"{study.name}.html"])
     files[sname] = json.dumps(summary, indent=2, default=_jsonable, allow_nan=False)
-    page = render_page(study, outputs, footer=footer, files=sorted(files))
+    page = render_page(
+        study, outputs, footer=footer, files=sorted(files), answer=answer, report_set=report_set
+    )
     return Report(study.name, page, files, summary)
+
+
+def _key(label: str) -> str:
+    """A JSON key of a display label: ``"study file SHA-256"`` -> ``"study_file_sha256"``."""
+    k = label.lower().replace("(", "").replace(")", "").replace("-", "")
+    return "_".join(k.split())
 
 
 def _jsonable(o):
@@ -322,9 +377,66 @@ def _library_versions() -> str:
     )
 
 
-def write_report(report: Report, out_dir: str | Path = "reports") -> Path:
-    """Write the data files, then the page, each atomically; returns the page's path."""
+def check_output_dir(out_dir: str | Path, field: str = "--out-dir") -> Path:
+    """Check that a report can be written to ``out_dir`` (created if missing), before
+    anything is computed.
+
+    Raises
+    ------
+    InputError
+        When the folder cannot be created or written (a file in its place, no
+        permission, read-only file system), with the reason.
+    """
     d = Path(out_dir)
-    for fname, text in report.files.items():
-        write_atomic(d / fname, text)
-    return write_atomic(d / f"{report.name}.html", report.html)
+    if d.exists() and not d.is_dir():
+        raise InputError(field, "must be a folder; a file of that name exists", str(d))
+    try:
+        d.mkdir(parents=True, exist_ok=True)
+        fd, probe = tempfile.mkstemp(prefix=".gapmatch-write-check.", dir=d)
+        os.close(fd)
+        os.unlink(probe)
+    except OSError as exc:
+        raise InputError(
+            field, f"cannot write a report there ({exc.strerror or exc})", str(d)
+        ) from None
+    return d
+
+
+def write_report(report: Report, out_dir: str | Path = "reports") -> Path:
+    """Write the report's files as one set; returns the page's path.
+
+    Every file is first written into a temporary folder beside the target (same file
+    system); only when all are complete are they moved into ``out_dir`` with one
+    rename each, data files first and the page last. A failure before that leaves the
+    previous report as it was, and the temporary folder is removed in every case.
+    """
+    d = check_output_dir(out_dir)
+    stale = _previous_set(d, report.name)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{report.name}.report-", dir=d))
+    try:
+        names = list(report.files)
+        for fname in names:
+            write_atomic(tmp / fname, report.files[fname])
+        page = f"{report.name}.html"
+        write_atomic(tmp / page, report.html)
+        for fname in [*names, page]:
+            os.replace(tmp / fname, d / fname)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    # files of the previous set that the new one does not have (e.g. a section dropped)
+    for fname in stale - {*report.files, page}:
+        (d / fname).unlink(missing_ok=True)
+    return d / page
+
+
+def _previous_set(d: Path, name: str) -> set[str]:
+    """File names the previous report of study ``name`` in ``d`` lists as its own."""
+    try:
+        old = json.loads((d / f"{name}_summary.json").read_text(encoding="utf-8"))
+        files = old.get("files", [])
+    except (OSError, ValueError, AttributeError):
+        return set()
+    # only plain file names of this study (never a path elsewhere)
+    return {
+        f for f in files if isinstance(f, str) and f == Path(f).name and f.startswith(f"{name}_")
+    }

@@ -446,10 +446,14 @@ def site_energy_section(ctx) -> SectionOutput:
         data["site_current_ratio.csv"] = pd.concat(ratios, ignore_index=True)
     summary = {
         "stacks": records,
-        "monthly_mismatch_loss_pct": {
-            s.name: [float(x) for x in 100.0 * res.monthly_mismatch_loss()[:, k]]
+        # a list of records: stack names are values, never keys
+        "monthly_mismatch_loss": [
+            {
+                "stack": s.name,
+                "loss_pct": [float(x) for x in 100.0 * res.monthly_mismatch_loss()[:, k]],
+            }
             for s, res, k in multi
-        },
+        ],
         "caution": YIELD_CAUTION,
     }
     return SectionOutput(blocks=blocks, data=data, summary=summary)

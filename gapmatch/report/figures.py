@@ -24,7 +24,9 @@ from plotly.subplots import make_subplots
 
 from ..maps import CutResult, MapResult, ToleranceWindow
 from ..units import HC_EV_NM, C, H
+from . import colours as nc
 from .html import esc
+from .style import FONT, apply_style
 
 __all__ = [
     "PALETTE",
@@ -38,15 +40,27 @@ __all__ = [
 ]
 
 #: Okabe-Ito categorical colours (colour-blind safe), without black
-PALETTE = ["#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7"]
+PALETTE = [
+    c.hex
+    for c in (
+        nc.ORANGE,
+        nc.SKY_BLUE,
+        nc.BLUISH_GREEN,
+        nc.YELLOW,
+        nc.BLUE,
+        nc.VERMILION,
+        nc.REDDISH_PURPLE,
+    )
+]
 #: text and line colour of the report
-INK = "#1f2a30"
+INK = nc.INK.hex
 #: colour of the best-partner ridge (reads on both ends of cividis)
-RIDGE = "#CC79A7"
-#: colours of materials on maps (Okabe-Ito without yellow and reddish purple)
-MATERIAL_COLOURS = ["#56B4E9", "#009E73", "#E69F00", "#0072B2", "#D55E00"]
-_FONT = dict(family="Source Sans 3, Segoe UI, Helvetica, Arial, sans-serif", size=13, color=INK)
-_CONN_COLOUR = {"series": "#0072B2", "independent": "#D55E00", "voltage-matched": "#009E73"}
+RIDGE = nc.RIDGE.hex
+#: colours of materials on maps (Okabe-Ito without yellow, vermilion and reddish purple,
+#: which the ridge, the optimum and the matched line use)
+MATERIAL_COLOURS = [c.hex for c in (nc.SKY_BLUE, nc.BLUISH_GREEN, nc.ORANGE, nc.BLUE)]
+_FONT = FONT
+_CONN_COLOUR = {k: c.hex for k, c in nc.CONNECTION.items()}
 _JUNCTION_FILL = [
     "rgba(0,114,178,0.30)",
     "rgba(230,159,0,0.35)",
@@ -58,16 +72,10 @@ _JUNCTION_FILL = [
 
 
 def _base_layout(fig: go.Figure, title: str, height: int = 560) -> None:
-    fig.update_layout(
-        title=dict(text=title, x=0.0, xanchor="left", font=dict(size=16)),
-        font=_FONT,
-        height=height,
-        margin=dict(l=70, r=30, t=60, b=60),
-        paper_bgcolor="#ffffff",
-        plot_bgcolor="#f4f1ea",
-        legend=dict(bgcolor="rgba(255,255,255,0.85)", bordercolor="#c9c2b4", borderwidth=1),
-        hoverlabel=dict(font=dict(family=_FONT["family"])),
-    )
+    """The report's style (:func:`gapmatch.report.style.apply_style`) with a title and
+    a height."""
+    apply_style(fig, title, height)
+    fig.update_layout(margin=dict(l=70, r=30, t=90, b=60))
 
 
 def _grid_z(values: np.ndarray, keep: np.ndarray, decimals: int) -> np.ndarray:
@@ -129,6 +137,7 @@ def _map_contour(
 def _square_map_axes(fig: go.Figure, m: MapResult, x_range, y_range, **y_extra) -> None:
     """Both gap axes titled, over the given ranges [eV], with equal scales."""
     xt, yt = _axis_titles(m)
+    fig.update_layout(plot_bgcolor="#f4f1ea")  # sand where a map is blank
     fig.update_xaxes(title=xt, range=x_range, showgrid=False, constrain="domain")
     fig.update_yaxes(
         title=yt, range=y_range, showgrid=False, scaleanchor="x", constrain="domain", **y_extra
@@ -201,8 +210,8 @@ def map_figure(
                 y=m.y_eV[r0:r1],
                 z=_grid_z(eff[r0:r1, c0:c1], keep[r0:r1, c0:c1], 2),
                 contours=dict(type="constraint", operation=">=", value=window.level_pct),
-                line=dict(color=INK, width=2.2, dash="dash"),
-                fillcolor="rgba(255,255,255,0.18)",
+                line=dict(color=nc.WINDOW_OUTLINE.hex, width=2.2, dash="dash"),
+                fillcolor="rgba(0,0,0,0)",
                 name=f"within {window.within_pct:g} % of optimum",
                 showlegend=True,
                 showscale=False,
@@ -282,7 +291,7 @@ def map_figure(
                 textposition="top center",
                 textfont=dict(color="#ffffff", size=12),
                 marker=dict(
-                    symbol="diamond", size=11, color="#ffffff", line=dict(color=INK, width=1.5)
+                    symbol="diamond", size=11, color=nc.WHITE.hex, line=dict(color=INK, width=1.5)
                 ),
                 customdata=[[esc(s.name), eff_s.get(s.name, float("nan"))] for _, s in pts],
                 hovertemplate=(
@@ -299,7 +308,7 @@ def map_figure(
             mode="markers",
             name="optimum",
             marker=dict(
-                symbol="star", size=16, color="#D55E00", line=dict(color="white", width=1.5)
+                symbol="star", size=16, color=nc.OPTIMUM.hex, line=dict(color="white", width=1.5)
             ),
             hovertemplate=(
                 f"optimum<br>%{{x:.3f}} / %{{y:.3f}} eV<br>efficiency "
@@ -310,8 +319,10 @@ def map_figure(
     fig.add_annotation(
         x=opt["x_eV"],
         y=opt["y_eV"],
-        ax=70,
-        ay=60,
+        # up and to the left: into the blank half of a two-junction map, away from
+        # the axis labels below and the colour bar on the right
+        ax=-75,
+        ay=-65,
         text=f"<b>optimum {opt['efficiency_pct']:.2f} %</b><br>"
         f"{opt['x_eV']:.2f} / {opt['y_eV']:.2f} eV",
         bgcolor="rgba(255,255,255,0.9)",
@@ -382,7 +393,7 @@ def mismatch_figure(
             y=np.round(y, 4),
             mode="lines",
             name="photocurrents matched",
-            line=dict(color="#D55E00", width=2.5),
+            line=dict(color=nc.MATCHED_LINE.hex, width=2.5),
             hovertemplate="matched at %{x:.3f} / %{y:.3f} eV<extra></extra>",
         )
     )
@@ -461,6 +472,33 @@ def cut_figure(cut: CutResult, materials: Sequence = (), title: str = "") -> go.
     return fig
 
 
+def add_cut_windows(fig: go.Figure, cut: CutResult, windows: dict, within_pct: float) -> None:
+    """Draw each connection's tolerance window along the cut: a bar from the lowest to
+    the highest top gap within ``within_pct`` of the best, at that efficiency level.
+
+    Parameters
+    ----------
+    windows : dict
+        Connection -> (low, high) gap [eV] (see
+        :func:`gapmatch.report.summary_box.cut_window`).
+    """
+    for c, (lo, hi) in windows.items():
+        level = cut.optimum(c)[1] - within_pct
+        fig.add_trace(
+            go.Scatter(
+                x=[lo, hi],
+                y=[level, level],
+                mode="lines+markers",
+                name=f"{c}: within {within_pct:g} % of its best",
+                line=dict(color=_CONN_COLOUR.get(c, INK), width=6),
+                marker=dict(symbol="line-ns", size=14, line=dict(width=2)),
+                opacity=0.55,
+                hovertemplate=f"{c}: top gaps {lo:.3f}–{hi:.3f} eV within {within_pct:g} % "
+                "(absolute) of the best<extra></extra>",
+            )
+        )
+
+
 _E_TICKS_EV = [4.0, 3.0, 2.5, 2.0, 1.75, 1.5, 1.25, 1.0, 0.9, 0.8, 0.7, 0.6, 0.5]
 
 
@@ -535,7 +573,7 @@ def spectrum_figure(spectrum, gaps_eV: Sequence[float], name: str = "") -> go.Fi
     title = f"spectrum and absorbed bands: {esc(name)}" if name else "spectrum"
     _base_layout(fig, title, height=470)
     fig.update_layout(
-        margin=dict(t=100),
+        margin=dict(t=130),
         xaxis=dict(title="wavelength [nm]", range=[lo_edge, hi_nm], gridcolor="#e2dccf"),
         xaxis2=dict(
             title=dict(text="photon energy [eV]", standoff=4),
@@ -568,38 +606,48 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
     name : str
         Stack name (escaped here).
     """
+    # concentrated light: currents in A cm^-2 once they pass 1 A cm^-2
+    big = max(jn["jph_mA_cm2"] for p in panels for jn in p["stack"]["junctions"]) >= 1e3
+    js, ju = (1e-3, "A cm<sup>-2</sup>") if big else (1.0, "mA cm<sup>-2</sup>")
     fig = make_subplots(
         rows=1,
         cols=len(panels),
-        subplot_titles=[
-            f"{p['connection']} connection: {p['stack']['efficiency_pct']:.2f} %" for p in panels
-        ],
+        subplot_titles=[_panel_title(p) for p in panels],
         horizontal_spacing=0.09,
     )
     for col, p in enumerate(panels, start=1):
         d, curves, conn = p["stack"], p["curves"], p["connection"]
+        ratio = d.get("cells_per_string")
         for k, (v, j) in enumerate(curves["junctions"]):
             colour = PALETTE[k % len(PALETTE)]
             jn = d["junctions"][k]
+            # voltage matching: each junction's cells form a string of n cells whose
+            # voltages add; the strings work in parallel at one voltage
+            n = ratio[k] if ratio else 1
+            label = (
+                f"string of {n} × junction {k + 1} ({jn['gap_eV']:.2f} eV)"
+                if ratio
+                else f"junction {k + 1} ({jn['gap_eV']:.2f} eV)"
+            )
             fig.add_trace(
                 go.Scatter(
-                    x=np.round(v, 5),
-                    y=np.round(j, 4),
+                    x=np.round(n * np.asarray(v), 5),
+                    y=np.round(js * np.asarray(j), 4),
                     mode="lines",
-                    name=f"junction {k + 1} ({jn['gap_eV']:.2f} eV)",
-                    legendgroup=f"j{k}",
-                    showlegend=col == 1,
-                    line=dict(color=colour, width=2),
-                    hovertemplate=f"junction {k + 1}<br>%{{x:.3f}} V<br>"
-                    "%{y:.2f} mA cm<sup>-2</sup><extra></extra>",
+                    name=label,
+                    legendgroup=f"j{k}s" if ratio else f"j{k}",
+                    showlegend=col == 1 or bool(ratio),
+                    line=dict(color=colour, width=2, dash="dash" if ratio else "solid"),
+                    hovertemplate=f"{label}<br>%{{x:.3f}} V<br>"
+                    "%{y:.2f} " + ju + "<extra></extra>",
                 ),
                 row=1,
                 col=col,
             )
             fig.add_trace(
                 go.Scatter(
-                    x=[jn["v_op_V"]],
-                    y=[jn["j_op_mA_cm2"]],
+                    x=[n * jn["v_op_V"]],
+                    y=[js * jn["j_op_mA_cm2"]],
                     mode="markers",
                     showlegend=False,
                     legendgroup=f"j{k}",
@@ -607,7 +655,7 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
                         color=colour, size=9, symbol="circle", line=dict(color=INK, width=1)
                     ),
                     hovertemplate=f"junction {k + 1} operating point<br>%{{x:.3f}} V, "
-                    "%{y:.2f} mA cm<sup>-2</sup><extra></extra>",
+                    "%{y:.2f} " + ju + "<extra></extra>",
                 ),
                 row=1,
                 col=col,
@@ -618,23 +666,36 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
             fig.add_trace(
                 go.Scatter(
                     x=np.round(v[ok], 5),
-                    y=np.round(j[ok], 4),
+                    y=np.round(js * j[ok], 4),
                     mode="lines",
                     name="whole stack",
                     legendgroup="stack",
                     showlegend=True,
                     line=dict(color=INK, width=2.5),
-                    hovertemplate="stack<br>%{x:.3f} V<br>%{y:.2f} mA cm<sup>-2</sup>"
-                    "<extra></extra>",
+                    hovertemplate="stack<br>%{x:.3f} V<br>%{y:.2f} " + ju + "<extra></extra>",
                 ),
                 row=1,
                 col=col,
             )
-        if d.get("vmpp_V") is not None:
+        if ratio and d.get("vmpp_V") is not None:
+            # the strings share one voltage; each string's operating point is circled
+            fig.add_vline(
+                x=d["vmpp_V"],
+                line=dict(color=INK, width=1.2, dash="dot"),
+                annotation=dict(
+                    text=f"common string voltage {d['vmpp_V']:.2f} V<br>"
+                    f"{d['efficiency_pct']:.2f} %",
+                    font=dict(size=11),
+                ),
+                annotation_position="bottom left",
+                row=1,
+                col=col,
+            )
+        elif d.get("vmpp_V") is not None:
             fig.add_trace(
                 go.Scatter(
                     x=[d["vmpp_V"]],
-                    y=[d["jmpp_mA_cm2"]],
+                    y=[js * d["jmpp_mA_cm2"]],
                     mode="markers+text",
                     name="maximum power point",
                     legendgroup="mpp",
@@ -644,7 +705,7 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
                     marker=dict(
                         symbol="star", size=14, color="#D55E00", line=dict(color=INK, width=1)
                     ),
-                    hovertemplate="maximum power point<br>%{x:.3f} V, %{y:.2f} mA cm<sup>-2</sup>"
+                    hovertemplate="maximum power point<br>%{x:.3f} V, %{y:.2f} " + ju + ""
                     f"<br>{d['pmpp_W_m2']:.1f} W m<sup>-2</sup><extra>{conn}</extra>",
                 ),
                 row=1,
@@ -654,12 +715,25 @@ def jv_figure(panels: Sequence[dict], name: str = "") -> go.Figure:
             title_text="voltage [V]", rangemode="tozero", gridcolor="#e2dccf", row=1, col=col
         )
         fig.update_yaxes(
-            title_text="current density [mA cm<sup>-2</sup>]",
+            title_text=f"current density [{ju}]",
             rangemode="tozero",
             gridcolor="#e2dccf",
             row=1,
             col=col,
         )
-    _base_layout(fig, f"J–V curves: {esc(name)}", height=440)
-    fig.update_layout(legend=dict(orientation="h", y=-0.22, x=0))
+    _base_layout(fig, f"J–V curves: {esc(name)}", height=480)
+    fig.update_layout(legend=dict(orientation="h", y=-0.22, x=0), margin=dict(b=110))
     return fig
+
+
+def ratio_words(cells_per_string) -> str:
+    """``"3 : 5 cells per string (top first)"`` for a voltage-matched result."""
+    return " : ".join(str(int(n)) for n in cells_per_string) + " cells per string (top first)"
+
+
+def _panel_title(p: dict) -> str:
+    d = p["stack"]
+    t = f"{p['connection']}: {d['efficiency_pct']:.2f} %"
+    if d.get("cells_per_string"):
+        t += f", {ratio_words(d['cells_per_string'])}"
+    return t

@@ -50,6 +50,22 @@ LOSS_COLOURS = {
 }
 
 
+def length_label(nm: float) -> str:
+    """A thickness in readable units: ``"300 nm"``, ``"1.5 µm"``."""
+    return f"{nm:.3g} nm" if nm < 1000 else f"{nm / 1000:.3g} µm"
+
+
+def _round_log_ticks(lo: float, hi: float) -> list[float]:
+    """1-2-5 ticks [nm] covering ``lo`` to ``hi`` on a log axis."""
+    out = []
+    for e in range(int(np.floor(np.log10(lo))), int(np.ceil(np.log10(hi))) + 1):
+        for m in (1, 2, 5):
+            v = m * 10.0**e
+            if lo * 0.999 <= v <= hi * 1.001:
+                out.append(v)
+    return out
+
+
 def _stack_label(gaps: np.ndarray) -> str:
     return " / ".join(f"{g:.2f}" for g in gaps) + " eV"
 
@@ -201,8 +217,9 @@ def thickness_figure(sweep: ThicknessSweep, connection: str = "series") -> go.Fi
             x=th,
             y=eff,
             mode="lines+markers",
-            name="efficiency [%]",
+            name="efficiency [%] (left axis)",
             line={"color": "#238b45", "width": 3},
+            hovertemplate="%{y:.2f} %<extra>efficiency</extra>",
         ),
         secondary_y=False,
     )
@@ -212,8 +229,9 @@ def thickness_figure(sweep: ThicknessSweep, connection: str = "series") -> go.Fi
                 x=th,
                 y=jph[:, k],
                 mode="lines",
-                name=f"J_ph junction {k + 1} [mA cm^-2]",
+                name=f"J<sub>ph</sub> junction {k + 1} [mA cm<sup>-2</sup>] (right axis)",
                 line={"dash": "dot"},
+                hovertemplate=f"junction {k + 1}: %{{y:.2f}} mA cm<sup>-2</sup><extra></extra>",
             ),
             secondary_y=True,
         )
@@ -223,18 +241,40 @@ def thickness_figure(sweep: ThicknessSweep, connection: str = "series") -> go.Fi
             x=[th[best]],
             y=[eff[best]],
             mode="markers+text",
-            text=[f"{eff[best]:.2f} % at {th[best]:.3g} nm"],
+            text=[f"{eff[best]:.2f} % at {length_label(th[best])}"],
             textposition="top center",
             marker={"size": 12, "symbol": "star", "color": "#08519c"},
             name="most efficient",
         ),
         secondary_y=False,
     )
-    fig.update_xaxes(type="log", title_text=f"thickness of junction {sweep.junction} [nm]")
-    fig.update_yaxes(title_text="efficiency [%]", secondary_y=False)
-    fig.update_yaxes(title_text="photocurrent [mA cm^-2]", secondary_y=True)
+    ticks = _round_log_ticks(float(np.min(th)), float(np.max(th)))
+    fig.update_xaxes(
+        type="log",
+        title_text=f"thickness of junction {sweep.junction}",
+        tickvals=ticks,
+        ticktext=[length_label(t) for t in ticks],
+        automargin=True,
+    )
+    fig.update_yaxes(
+        title_text="efficiency [%]", secondary_y=False, rangemode="tozero", automargin=True
+    )
+    jmax = float(np.nanmax(jph)) if jph.size else 1.0
+    step = next(s for s in (1, 2, 5, 10, 20, 50, 100, 200, 500, 1e3, 1e4, 1e5) if jmax / s <= 8)
+    fig.update_yaxes(
+        title_text="photocurrent [mA cm<sup>-2</sup>]",
+        secondary_y=True,
+        range=[0, 1.1 * jmax],
+        tick0=0,
+        dtick=step,
+        showgrid=False,
+        automargin=True,
+    )
     fig.update_layout(
         title=f"Efficiency versus thickness, stack {_stack_label(res.gaps_eV[0])}"
-        f", {connection} (theoretical model, not a rating)"
+        f", {connection} (model projection with finite absorbers, not a rating)",
+        height=520,
+        margin=dict(l=80, r=90, t=90, b=110),
+        legend=dict(orientation="h", y=-0.25, x=0),
     )
     return fig

@@ -26,9 +26,12 @@ import numpy as np
 
 from ..api import evaluate, thickness_sweep
 from ..errors import InputError
-from .html import para, table
+from ..results import LOSS_LABELS
+from .html import esc, para, table
 from .loss_figures import loss_breakdown_figure, thickness_figure
 from .registry import SectionOutput, register_section
+from .sections import power_unit
+from .style import FIGURE_CAUTION, THICKNESS_CAUTION
 
 
 def _loss_results(ctx):
@@ -64,9 +67,14 @@ def losses_section(ctx) -> SectionOutput:
     summary = {}
     names = [s.name for s in ctx.study.stacks]
     for conn, res in results.items():
-        fig = loss_breakdown_figure(res, title=f"Loss breakdown, {conn} connection")
-        fig.update_xaxes(ticktext=names, tickvals=list(range(len(names))))
-        fig.update_layout(height=460)
+        fig = loss_breakdown_figure(
+            res, title=f"Loss breakdown, {conn} connection ({FIGURE_CAUTION})"
+        )
+        # plotly renders a subset of HTML in tick labels: user names are escaped
+        fig.update_xaxes(
+            ticktext=[esc(n) for n in names], tickvals=list(range(len(names))), automargin=True
+        )
+        fig.update_layout(height=520)
         blocks.append(fig)
         frame = res.losses.to_frame()
         frame.insert(0, "stack", names)
@@ -76,16 +84,19 @@ def losses_section(ctx) -> SectionOutput:
         summary[conn] = {"max_closure_error_relative": closure}
         # one row per loss term, one column per stack (stays narrow for any term count)
         cols = [c for c in frame.columns if c.endswith("_W_m2")]
+        # concentrated light: kW m^-2 keeps the numbers readable
+        unit, scale = power_unit(float(np.nanmax(np.abs(frame[cols].to_numpy()))))
         rows = [
-            [c.removesuffix("_W_m2").replace("_", " ")]
-            + [f"{frame.loc[i, c]:.1f}" for i in range(len(names))]
+            # the same label per term as the figure's legend
+            [LOSS_LABELS.get(c.removesuffix("_W_m2"), c.removesuffix("_W_m2").replace("_", " "))]
+            + [f"{frame.loc[i, c] * scale:.1f}" for i in range(len(names))]
             for c in cols
         ]
         blocks.append(
             table(
-                ["term [W m^-2]", *names],
+                [f"term [{unit}]", *names],
                 rows,
-                caption=f"{conn} connection: where the incident power goes [W m^-2]",
+                caption=f"{conn} connection: where the incident power goes [{unit}]",
                 numeric=[False] + [True] * len(names),
             )
         )
@@ -128,9 +139,20 @@ def thickness_section(ctx) -> SectionOutput:
         **kw,
     )
     fig = thickness_figure(sweep, conn)
-    fig.update_layout(title=f"{name}: efficiency versus thickness of junction {j}")
+    fig.update_layout(
+        title=f"{esc(name)}: efficiency versus thickness of junction {j}<br>"
+        f"<span style='font-size:12px;color:#5b6770'>{THICKNESS_CAUTION}</span>"
+    )
     return SectionOutput(
         blocks=[
+            para(
+                "A model projection with finite absorbers, not an ideal ceiling: unlike the "
+                "step-absorptance limits of the other sections, junction "
+                f"{j} here absorbs only part of the light above its gap (an Urbach-tailed "
+                f"{absorbers[j - 1]}-gap absorption edge, {cfg.get('light_trapping', 'single')} "
+                "light path, Boltzmann dark current), so its numbers depend on that absorber "
+                "model as well as on the gaps."
+            ),
             para(
                 f"Stack {name} ({' / '.join(f'{g:.2f}' for g in gaps)} eV), {conn} "
                 f"connection: junction {j} is given a finite {absorbers[j - 1]}-gap "

@@ -7,8 +7,54 @@ resumable storage and parallel workers.
 
 from __future__ import annotations
 
+import numpy as np
+
+from . import colours as nc
 from .html import para, table
 from .registry import SectionOutput, register_section
+from .sections import _vm_ratio
+
+__all__ = ["search_section", "drop_constant_dimensions"]
+
+
+#: trace name -> report colour (the search package draws in colours of its own)
+_SEARCH_COLOURS = {
+    "feasible trial": nc.BLUE,
+    "polished optimum": nc.VERMILION,
+    "best so far": nc.VERMILION,
+    "with the constraint": nc.BLUE,
+    "without it (re-optimised)": nc.ORANGE,
+}
+
+
+def _recolour(fig) -> None:
+    """Draw the search figures in the report's named colours."""
+    for tr in fig.data:
+        c = _SEARCH_COLOURS.get(tr.name)
+        if c is None:
+            continue
+        if tr.type == "bar" or tr.mode == "markers":
+            tr.marker.color = c.hex
+        else:
+            tr.line.color = c.hex
+
+
+def drop_constant_dimensions(fig):
+    """Leave out parallel-coordinates axes whose values never vary (they carry no
+    information and crowd the others); returns the labels left out."""
+    dropped = []
+    for tr in fig.data:
+        if tr.type != "parcoords":
+            continue
+        keep = []
+        for d in tr.dimensions:
+            v = np.asarray(d.values, dtype=float)
+            if v.size and np.nanmax(v) - np.nanmin(v) <= 1e-12 * max(1.0, abs(np.nanmax(v))):
+                dropped.append(d.label)
+            else:
+                keep.append(d)
+        tr.dimensions = keep
+    return dropped
 
 
 @register_section("search", "Band-gap search", default=False)
@@ -41,6 +87,8 @@ def search_section(ctx) -> SectionOutput:
     costs = constraint_costs(problem, res.best_gaps_eV, res.best_value, seed=cfg["seed"])
     best = res.best
     n = problem.n_junctions
+    # a voltage-matched result states its cells-per-string ratio
+    ratio = _vm_ratio(ctx, best["gaps_eV"]) if problem.connection == "voltage-matched" else None
     opt = optima_table(res)
     gap_cols = [c for c in opt.columns if c.startswith("gap_")]
     value_col = next(c for c in opt.columns if c.endswith("_pct") and c != "delta_pct")
@@ -70,7 +118,8 @@ def search_section(ctx) -> SectionOutput:
         ),
         para(
             f"Best stack: {' / '.join(f'{g:.4f}' for g in best['gaps_eV'])} eV, efficiency "
-            f"{best['efficiency_pct']:.3f} %."
+            f"{best['efficiency_pct']:.3f} %"
+            + (f", {' : '.join(map(str, ratio))} cells per string (top first)." if ratio else ".")
         ),
         table(
             [
@@ -84,9 +133,28 @@ def search_section(ctx) -> SectionOutput:
             caption="Best stack and distinct local optima (at least 0.05 eV apart in some gap)",
             numeric=[True, False, True, True, False],
         ),
-        history_figure(res),
-        parallel_coordinates_figure(res),
     ]
+    hist = history_figure(res)
+    _recolour(hist)
+    # legend below the plot, clear of the axis titles
+    hist.update_layout(legend=dict(orientation="h", x=0, y=-0.22, yanchor="top"), height=480)
+    hist.update_xaxes(automargin=True)
+    blocks.append(hist)
+    par = parallel_coordinates_figure(res)
+    dropped = drop_constant_dimensions(par)
+    for tr in par.data:
+        for d in tr.dimensions:
+            d.tickformat = ".3g"  # no six-digit range labels at the ends
+    par.update_layout(margin=dict(l=60, r=60, t=110, b=40), height=480)
+    blocks.append(par)
+    if dropped:
+        blocks.append(
+            para(
+                "Left out of the parallel coordinates because they never vary: "
+                + ", ".join(dropped)
+                + "."
+            )
+        )
     cost_df = constraint_cost_table(costs)
     if len(cost_df):
         blocks.append(
@@ -114,7 +182,13 @@ def search_section(ctx) -> SectionOutput:
                 numeric=[False, False, True, True, True, False],
             )
         )
-        blocks.append(constraint_cost_figure(costs))
+        cost_fig = constraint_cost_figure(costs)
+        _recolour(cost_fig)
+        # bars start at zero: their lengths compare the efficiencies honestly
+        top = float(max(cost_df["with_pct"].max(), cost_df["without_pct"].max()))
+        cost_fig.update_yaxes(range=[0, 1.15 * top], rangemode="tozero")
+        cost_fig.update_layout(legend=dict(orientation="h", x=0, y=-0.18, yanchor="top"))
+        blocks.append(cost_fig)
     return SectionOutput(
         blocks=blocks,
         data={"search_trials.csv": res.to_frame(), "search_optima.csv": opt},
@@ -123,5 +197,6 @@ def search_section(ctx) -> SectionOutput:
             "best_efficiency": best["efficiency"],
             "alternatives": res.alternatives,
             "trials": res.n_trials,
+            **({"cells_per_string": ratio} if ratio else {}),
         },
     )

@@ -19,6 +19,7 @@ import plotly.graph_objects as go
 from ..jv import jv_curve
 from ..maps import MapResult
 from ..results import Conditions
+from . import colours as nc
 from . import figures as figs
 from .context import ReportContext
 from .html import esc, fmt, para, table
@@ -54,6 +55,59 @@ def _stack_eff(ctx: ReportContext, conn: str) -> dict[str, float]:
     }
 
 
+VM = "voltage-matched"
+
+
+def _vm_ratio(ctx: ReportContext, gaps_eV) -> list[int]:
+    """Cells per string (top first) of a voltage-matched stack at the study's conditions."""
+    from ..api import evaluate
+
+    r = evaluate(list(gaps_eV), VM, ctx.illumination, **ctx.cell_options())
+    return list(r.stack(0)["cells_per_string"])
+
+
+def _drop_empty_columns(header, rows, numeric, optional) -> str:
+    """A table without the ``optional`` columns that are empty ('' or –) in every row."""
+    keep = [
+        k
+        for k, h in enumerate(header)
+        if h not in optional or any(str(r[k]) not in ("", "–") for r in rows)
+    ]
+    return table(
+        [header[k] for k in keep],
+        [[r[k] for k in keep] for r in rows],
+        numeric=[numeric[k] for k in keep],
+    )
+
+
+def power_unit(largest_W_m2: float) -> tuple[str, float]:
+    """Display unit and factor from W m^-2 for power densities up to ``largest_W_m2``:
+    kW m^-2 from 10 kW m^-2 (concentrated light), else W m^-2."""
+    return ("kW m⁻²", 1e-3) if largest_W_m2 >= 1e4 else ("W m⁻²", 1.0)
+
+
+def current_unit(largest_mA_cm2: float) -> tuple[str, float]:  # noqa: N803
+    """Display unit and factor from mA cm^-2 for current densities up to
+    ``largest_mA_cm2``: A cm^-2 from 1 A cm^-2, else mA cm^-2."""
+    return ("A cm⁻²", 1e-3) if largest_mA_cm2 >= 1e3 else ("mA cm⁻²", 1.0)
+
+
+def vm_map_note(ctx: ReportContext) -> str:
+    """Why voltage-matched connection is not on the maps although the study lists it
+    ('' when it is mapped or not asked for)."""
+    if "voltage-matched" not in ctx.study.connections:
+        return ""
+    if "voltage-matched" in ctx.study.map_connections:
+        return ""
+    return (
+        "Voltage-matched connection is in study.connections but not on these maps: it "
+        "searches the cells-per-string ratio at every grid point (about a minute for "
+        "201 x 201 points), so it is mapped only when map.connections lists it. The "
+        "stacks of interest are evaluated voltage-matched (with their cells-per-string "
+        "ratio) in the table of stacks."
+    )
+
+
 def _map_words(m: MapResult) -> str:
     if m.others == "none":
         return (
@@ -86,28 +140,49 @@ def map_section(ctx: ReportContext) -> SectionOutput:
     blocks = [
         para(_map_words(m)),
         para(
-            "Contours are iso-efficiency lines labelled in percent. The star marks the grid "
-            "optimum; the yellow line is the best-partner ridge (for each gap on the horizontal "
-            "axis, the partner gap that maximises efficiency); the dashed outline encloses every "
+            "Contours are iso-efficiency lines labelled in percent. The "
+            f"{nc.OPTIMUM.word} star marks the grid optimum; the {nc.RIDGE.word} line is the "
+            "best-partner ridge (for each gap on the horizontal axis, the partner gap that "
+            f"maximises efficiency); the dashed {nc.WINDOW_OUTLINE.word} outline encloses every "
             f"point within {ctx.tolerance_pct:g} absolute percent of the optimum. Candidate "
             "materials appear as dotted lines (fixed gaps) or shaded bands (tunable windows); "
-            "diamonds mark the stacks of interest (S1, S2, ... as in the table of stacks)."
+            f"{nc.WHITE.word} diamonds mark the stacks of interest (S1, S2, ... as in the table "
+            "of stacks)."
         ),
     ]
+    note = vm_map_note(ctx)
+    if note:
+        blocks.append(f'<p class="gm-note" role="note">{esc(note)}</p>')
     rows = []
+    ratios = {c: _vm_ratio(ctx, m.optimum(c)["gaps_eV"]) for c in m.connections if c == VM}
     for c in m.connections:
         opt = m.optimum(c)
         rows.append(
-            [c, " / ".join(f"{g:.3f}" for g in opt["gaps_eV"]), f"{opt['efficiency_pct']:.2f}"]
+            [
+                c,
+                " / ".join(f"{g:.3f}" for g in opt["gaps_eV"]),
+                f"{opt['efficiency_pct']:.2f}",
+            ]
+            + ([" : ".join(map(str, ratios[c])) if c in ratios else "–"] if ratios else [])
         )
     blocks.append(
         table(
-            ["connection", "optimum gaps, top first [eV]", "efficiency [%]"],
+            ["connection", "optimum gaps, top first [eV]", "efficiency [%]"]
+            + (["cells per string, top first"] if ratios else []),
             rows,
             caption="Grid optimum per connection",
-            numeric=[False, True, True],
+            numeric=[False, True, True] + ([True] if ratios else []),
         )
     )
+    if ratios:
+        blocks.append(
+            para(
+                "Voltage-matched maps choose the cells-per-string ratio afresh at every "
+                "point; at the optimum it is "
+                + " : ".join(map(str, ratios[VM]))
+                + " (strings of that many cells of each junction, top first, in parallel)."
+            )
+        )
     for c in m.connections:
         w = m.tolerance_window(c, ctx.tolerance_pct)
         blocks.append(
@@ -119,7 +194,8 @@ def map_section(ctx: ReportContext) -> SectionOutput:
                 stacks=st.stacks,
                 stack_efficiency=_stack_eff(ctx, c),
                 title=f"Efficiency map, {c} connection"
-                + ("" if m.others == "none" else f" (other junctions {m.others})"),
+                + ("" if m.others == "none" else f" (other junctions {m.others})")
+                + (f", {figs.ratio_words(ratios[c])} at the optimum" if c in ratios else ""),
             )
         )
     ridges = []
@@ -225,7 +301,8 @@ def mismatch_section(ctx: ReportContext) -> SectionOutput:
         [
             para(
                 "Ratio of the smallest to the largest junction photocurrent of the series stack "
-                "(1 = matched) under the study's spectrum. The orange line is where the two mapped "
+                "(1 = matched) under the study's spectrum. The "
+                f"{nc.MATCHED_LINE.word} line is where the two mapped "
                 "junctions generate equal photocurrent; a series stack loses the excess current of "
                 "the stronger junction away from it."
             ),
@@ -252,7 +329,7 @@ def materials_section(ctx: ReportContext) -> SectionOutput:
                 "Materials as given in the study file. They are drawn on the maps "
                 "and the one-dimensional cut."
             ),
-            table(["material", "band gap", "position", "note"], rows),
+            table(["material", "band gap", "role", "note"], rows),
         ]
     )
 
@@ -264,6 +341,10 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
     if not st.stacks:
         return SectionOutput([para("The study lists no stacks of interest.")])
     rows, frames, summ = [], [], {}
+    # concentrated light: powers in kW m^-2 and currents in A cm^-2 stay readable
+    all_d = [ctx.stack_results[(s.name, c)].stack(0) for s in st.stacks for c in st.connections]
+    p_unit, p_scale = power_unit(max(d["pmpp_W_m2"] for d in all_d))
+    j_unit, j_scale = current_unit(max((d["jsc_mA_cm2"] or 0.0) for d in all_d))
     for k, s in enumerate(st.stacks, start=1):
         for c in st.connections:
             r = ctx.stack_results[(s.name, c)]
@@ -275,51 +356,64 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
                     " / ".join(f"{g:.3f}" for g in s.gaps_eV),
                     c,
                     f"{d['efficiency_pct']:.2f}",
-                    f"{d['pmpp_W_m2']:.1f}",
+                    f"{d['pmpp_W_m2'] * p_scale:.1f}",
                     fmt(d["voc_V"], ".3f"),
-                    fmt(d["jsc_mA_cm2"], ".2f"),
+                    fmt(None if d["jsc_mA_cm2"] is None else d["jsc_mA_cm2"] * j_scale, ".2f"),
                     f"{d['ff']:.3f}",
                     f"{d['mismatch_ratio']:.3f}",
+                    " : ".join(str(n) for n in d["cells_per_string"])
+                    if d.get("cells_per_string")
+                    else "–",
                     s.note,
                 ]
             )
             f = r.to_frame()
             f.insert(0, "stack", s.name)
             frames.append(f)
-            summ.setdefault(s.name, {})[c] = {
-                k: d[k]
-                for k in (
-                    "efficiency_pct",
-                    "gaps_eV",
-                    "pmpp_W_m2",
-                    "voc_V",
-                    "jsc_mA_cm2",
-                    "ff",
-                    "mismatch_ratio",
-                )
-            }
+            entry = {"stack": s.name, "connection": c}
+            entry.update(
+                {
+                    k: d[k]
+                    for k in (
+                        "efficiency_pct",
+                        "gaps_eV",
+                        "pmpp_W_m2",
+                        "voc_V",
+                        "jsc_mA_cm2",
+                        "ff",
+                        "mismatch_ratio",
+                        "cells_per_string",
+                    )
+                    if k in d
+                }
+            )
+            summ.setdefault("results", []).append(entry)
     blocks = [
         para(
             "Each stack of interest evaluated at its exact maximum power point. For "
             "independent connection the stack has no single pair of terminals, so "
-            "V_oc and J_sc are not defined (–)."
+            "V_oc and J_sc are not defined (–). Voltage-matched results state their "
+            "cells-per-string ratio: strings of n cells of each junction, wired in parallel "
+            "at one voltage."
         ),
-        table(
+        _drop_empty_columns(
             [
                 "mark",
                 "stack",
                 "gaps, top first [eV]",
                 "connection",
                 "efficiency [%]",
-                "P_mpp [W m⁻²]",
+                f"P_mpp [{p_unit}]",
                 "V_oc [V]",
-                "J_sc [mA cm⁻²]",
+                f"J_sc [{j_unit}]",
                 "FF [-]",
                 "J_min/J_max [-]",
+                "cells per string, top first",
                 "note",
             ],
             rows,
-            numeric=[False, False, True, False] + [True] * 6 + [False],
+            [False, False, True, False] + [True] * 7 + [False],
+            optional=("cells per string, top first", "note"),
         ),
     ]
     return SectionOutput(
@@ -330,28 +424,53 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
 @register_section("cut", "One-dimensional cut")
 def cut_section(ctx: ReportContext) -> SectionOutput:
     """Efficiency versus top gap for the fixed bottom gap."""
+    from .summary_box import cut_window
+
     cut = ctx.cut
     bg = ctx.study.cut["bottom_gap_eV"]
-    rows = [[c, f"{cut.optimum(c)[0]:.3f}", f"{cut.optimum(c)[1]:.2f}"] for c in cut.efficiency]
+    tol = ctx.tolerance_pct
+    windows = {c: cut_window(cut, c, tol) for c in cut.efficiency}
+    rows = [
+        [
+            c,
+            f"{cut.optimum(c)[0]:.3f}",
+            f"{cut.optimum(c)[1]:.2f}",
+            f"{windows[c][0]:.3f}–{windows[c][1]:.3f}",
+        ]
+        for c in cut.efficiency
+    ]
+    fig = figs.cut_figure(
+        cut, ctx.study.materials, title=f"Efficiency versus top gap, bottom gap {bg:.2f} eV"
+    )
+    figs.add_cut_windows(fig, cut, windows, tol)
     return SectionOutput(
         [
             para(
                 f"Efficiency versus the top gap with the bottom gap fixed at {bg:.2f} eV"
                 + ("" if ctx.study.n_junctions == 2 else " and the middle gaps at map.stack_eV")
-                + ". Top-cell candidates are marked."
+                + ". Top-cell candidates are marked. The cut has its own tolerance window: "
+                f"the top gaps within {tol:g} absolute percent of the cut's best point "
+                "(drawn as a bar of the connection's colour at that level)."
             ),
-            figs.cut_figure(
-                cut, ctx.study.materials, title=f"Efficiency versus top gap, bottom gap {bg:.2f} eV"
-            ),
+            fig,
             table(
-                ["connection", "best top gap [eV]", "efficiency [%]"],
+                [
+                    "connection",
+                    "best top gap [eV]",
+                    "efficiency [%]",
+                    f"top gaps within {tol:g} % [eV]",
+                ],
                 rows,
-                numeric=[False, True, True],
+                numeric=[False, True, True, True],
             ),
         ],
         data={"cut.csv": cut.to_frame()},
         summary={
-            c: {"best_top_gap_eV": cut.optimum(c)[0], "efficiency_pct": cut.optimum(c)[1]}
+            c: {
+                "best_top_gap_eV": cut.optimum(c)[0],
+                "efficiency_pct": cut.optimum(c)[1],
+                "tolerance_window_eV": list(windows[c]),
+            }
             for c in cut.efficiency
         },
     )
@@ -388,7 +507,10 @@ def jv_section(ctx: ReportContext) -> SectionOutput:
             "Each junction's own J–V curve from short circuit to open circuit, with "
             "its operating point at the stack's maximum power (circles). For series "
             "connection the whole stack's curve is drawn too and its maximum power "
-            "point starred."
+            "point starred. For voltage-matched connection each junction's cells form "
+            "a string (dashed: the string's curve, n cells in series, n from the "
+            "cells-per-string ratio in the panel title); the strings work in parallel at "
+            "one common voltage (dotted line)."
         )
     ]
     for s in st.stacks:
