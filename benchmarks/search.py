@@ -7,7 +7,7 @@ script computes itself: scipy's differential evolution (several seeds) on the ba
 evaluator, each result polished by scipy's Nelder-Mead, the best kept. Nothing of
 ``gapmatch.search`` is used for the reference.
 
-Targets (issue 4): within 0.02 absolute % of the reference for N <= 4 and 0.05 for
+Targets: within 0.02 absolute % of the reference for N <= 4 and 0.05 for
 N = 5, 6; three junctions in at most 10 s and six in at most 120 s on 2 cores.
 
     python benchmarks/search.py            # one line per case

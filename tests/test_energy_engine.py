@@ -80,7 +80,7 @@ def test_row_solvers_agree_with_core_series(n):
 @pytest.mark.parametrize("gaps", [[1.73, 1.12], [1.9, 1.37, 0.94], [1.34]])
 def test_constant_conditions_closure(am15g, gaps):
     """A year whose every hour is AM1.5G at 25 deg C: energy efficiency = AM1.5G efficiency
-    at 25 deg C to 1e-9 (issue's tolerance; both are the same sums of the same
+    at 25 deg C to 1e-9 (our tolerance; both are the same sums of the same
     maximum-power points, the row solvers converge to 1e-13)."""
     times = pd.date_range("1990-01-01 00:30", periods=8760, freq="h", tz="Etc/GMT+5")
     hs = HourlySpectra.constant(am15g.wavelength_nm, am15g.irradiance_W_m2_nm, times)

@@ -30,7 +30,7 @@ def test_spectrl2_under_g173_conditions_matches_g173_global(gap_eV):
     standard's text: 1976 US Standard Atmosphere at sea level, air mass 1.5 (zenith
     48.19 deg), a 37 deg plane facing the sun, precipitable water 1.42 cm, ozone
     0.34 atm-cm, rural aerosol with AOD 0.084 at 500 nm, albedo about 0.2) against the
-    G173 global table: photon flux above the gap per watt within 1.5 % (the issue's
+    G173 global table: photon flux above the gap per watt within 1.5 % (our
     tolerance; spectrl2 is a ~10 nm band model and G173 came from SMARTS2, so a percent
     is the expected agreement)."""
     cs = clear_sky_spectra(
@@ -55,7 +55,7 @@ def test_spectrl2_under_g173_conditions_matches_g173_global(gap_eV):
 @pytest.mark.parametrize("tracking", ["fixed", "single-axis"])
 def test_broadband_closure_to_pvlib_transposition(tmy, transposition, tracking):
     """In-plane integral of the scaled spectra = pvlib.get_total_irradiance of the same
-    measured components, every hour within 1 % (issue tolerance) and over the year."""
+    measured components, every hour within 1 % (the project's closure target) and over the year."""
     m = Mounting(36.0, 180.0) if tracking == "fixed" else Mounting(tracking="single-axis")
     hs = hourly_spectra(tmy, m, transposition=transposition)
     b = hs.broadband

@@ -78,7 +78,7 @@ def test_jv_curve_under_a_spectrum_file(tmp_path):
     _check_curves(res)
 
 
-def test_jv_curve_of_the_issue_example_is_the_result():
+def test_jv_curve_of_an_am0_result_is_the_result():
     # AM0 result: J(0) of the curve is the result's own J_sc, not one under AM1.5G
     res = gm.evaluate([1.8, 1.1], "series", "AM0")
     am15 = gm.evaluate([1.8, 1.1], "series", "AM1.5G")

@@ -62,7 +62,7 @@ def test_plotlyjs_embedded_once_and_size(demo):
     assert page.count(head) == 1
     rest = page.replace(get_plotlyjs(), "")
     assert not re.search(r"<(script|link|img)[^>]+(src|href)=", rest)  # fully offline
-    assert (out / f"{NAME}.html").stat().st_size < 10e6  # issue 3: under 10 MB
+    assert (out / f"{NAME}.html").stat().st_size < 10e6  # the project's page-size target: under 10 MB
 
 
 def test_every_section_and_figure(demo):
@@ -320,7 +320,7 @@ def test_loss_and_thickness_sections_in_demo(tmp_path):
     summary = json.loads((tmp_path / f"{rep.name}_summary.json").read_text())
     for conn in ("series", "independent"):
         # Hirst & Ekins-Daukes 2011 decomposition: terms add to the incident power;
-        # 1e-6 relative is the issue's closure target
+        # 1e-6 relative is the project's closure target
         assert summary["losses"][conn]["max_closure_error_relative"] < 1e-6
     losses = (tmp_path / f"{rep.name}_losses_series.csv").read_text().splitlines()
     assert len(losses) == 1 + 3  # header + the demo's three stacks of interest
