@@ -32,6 +32,9 @@ import optuna
 import pytest
 from pg_server import PostgresServer, pg_bin
 
+from gapmatch.search import make_problem, optimise
+from gapmatch.search.storage import close_storage
+
 ROOT = Path(__file__).resolve().parents[1]
 ENV = dict(os.environ, PYTHONPATH=str(ROOT))
 N_SEEDS = 10
@@ -85,10 +88,13 @@ def _cmd(url: str, name: str, trials: int, *extra: str) -> list[str]:
 
 
 def _trials(url: str, name: str):
+    storage = optuna.storages.RDBStorage(url)
     try:
-        return optuna.load_study(study_name=name, storage=url).get_trials(deepcopy=False)
+        return optuna.load_study(study_name=name, storage=storage).get_trials(deepcopy=False)
     except Exception:  # noqa: BLE001 - not created yet
         return []
+    finally:
+        close_storage(storage)  # polled often: no connection left for the collector
 
 
 def _counted(trials):
@@ -214,3 +220,23 @@ def test_trial_killed_before_its_first_heartbeat_is_retried(pg, monkeypatch):
     retries = [t for t in trials if t.system_attrs.get("failed_trial") == dead.number]
     assert len(retries) == 1 and retries[0].state == optuna.trial.TrialState.WAITING
     assert trials[live.number].state == optuna.trial.TrialState.RUNNING
+    close_storage(storage)
+
+
+def test_in_process_search_closes_its_connections(pg):
+    """A search run from Python on a database server leaves no open connection behind
+    (pooled connections would otherwise be closed by the garbage collector, with an
+    unclosed-connection warning, or stay as idle sessions on the server)."""
+    import gc
+    import warnings
+
+    url = pg.new_database()
+    problem = make_problem(2, "series")
+    gc.collect()
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", ResourceWarning)
+        res = optimise(problem, trials=4, seed=1, storage=url, progress=False)
+        del res
+        gc.collect()
+    leaked = [w for w in caught if issubclass(w.category, ResourceWarning)]
+    assert leaked == [], [str(w.message) for w in leaked]

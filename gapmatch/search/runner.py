@@ -44,7 +44,14 @@ from .polish import polish
 from .problem import SearchProblem
 from .result import SearchResult, trials_frame
 from .samplers import SAMPLERS, make_sampler
-from .storage import open_storage, open_study, quiet_optuna, shown_url, storage_url
+from .storage import (
+    closing_storages,
+    open_storage,
+    open_study,
+    quiet_optuna,
+    shown_url,
+    storage_url,
+)
 from .trials import SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
 from .workers import GracefulStop, count_trials, run_trials, worker_main
 
@@ -243,7 +250,7 @@ def optimise(
         polish_starts=polish_starts,
     )
     study_name = study_name or default_study_name(problem, **settings)
-    with quiet_optuna():
+    with quiet_optuna(), closing_storages():
         return _optimise(
             problem,
             trials=int(trials),

@@ -21,6 +21,7 @@ Storage kinds:
 from __future__ import annotations
 
 import contextlib
+import contextvars
 import importlib.util
 import os
 import socket
@@ -188,6 +189,35 @@ def _connection_error(url: str, exc: BaseException) -> InputError:
     return InputError("storage", f"cannot open the database ({first})", shown_url(url))
 
 
+_OPENED: contextvars.ContextVar[list | None] = contextvars.ContextVar("_OPENED", default=None)
+
+
+@contextlib.contextmanager
+def closing_storages() -> Iterator[None]:
+    """Close the database connections of every storage opened inside the block.
+
+    A search opens its storage itself; without this its pooled connections stay open
+    until garbage collection, which a notebook or a long test session notices as
+    unclosed-connection warnings (and a server as idle sessions).
+    """
+    token = _OPENED.set([])
+    try:
+        yield
+    finally:
+        opened = _OPENED.get() or []
+        _OPENED.reset(token)
+        for storage in opened:
+            close_storage(storage)
+
+
+def close_storage(storage: Any) -> None:
+    """Dispose of the connection pool of a relational storage (others: nothing to do)."""
+    if isinstance(storage, optuna.storages.RDBStorage):
+        with contextlib.suppress(Exception):  # closing is best effort, never an error
+            storage.remove_session()
+            storage.engine.dispose()
+
+
 def open_storage(url: str | None, *, heartbeat: bool | None = None):
     """An optuna storage for an address from :func:`storage_url` (``None``: in memory).
 
@@ -231,7 +261,11 @@ def open_storage(url: str | None, *, heartbeat: bool | None = None):
     for attempt in range(OPEN_ATTEMPTS):
         try:
             with quiet_optuna():
-                return optuna.storages.RDBStorage(url, engine_kwargs=dict(kw), **extra)
+                storage = optuna.storages.RDBStorage(url, engine_kwargs=dict(kw), **extra)
+            opened = _OPENED.get()
+            if opened is not None:
+                opened.append(storage)
+            return storage
         except sa_exc.NoSuchModuleError:
             raise InputError(
                 "storage",

@@ -33,7 +33,7 @@ import numpy as np
 import optuna
 
 from .problem import SearchProblem
-from .storage import open_storage, quiet_optuna, worker_tag
+from .storage import close_storage, open_storage, quiet_optuna, worker_tag
 from .trials import RETRY, SET_CONSTRAINT, UNCOUNTED_STAGES, trial_attr, trial_stage
 
 __all__ = [
@@ -437,4 +437,7 @@ def worker_main(problem, url, study_name, sampler_name, seed, budget, parent_pid
             storage=storage,
             sampler=make_sampler(sampler_name, problem, seed),
         )
-        run_trials(study, problem, budget, guard=guard, parent_pid=parent_pid)
+        try:
+            run_trials(study, problem, budget, guard=guard, parent_pid=parent_pid)
+        finally:
+            close_storage(storage)
