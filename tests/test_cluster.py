@@ -182,7 +182,17 @@ def test_site_map_cli_on_local_cluster(capsys):
 
     from gapmatch.cli import main
 
-    args = ["map", "--weather", "demo", "--x-gap-range", "1.6", "2.0", "--y-gap-range", "1.0", "1.2"]
+    args = [
+        "map",
+        "--weather",
+        "demo",
+        "--x-gap-range",
+        "1.6",
+        "2.0",
+        "--y-gap-range",
+        "1.0",
+        "1.2",
+    ]
     args += ["--step", "0.1", "--json"]
     assert main(args) == 0
     local = json.loads(capsys.readouterr().out)
