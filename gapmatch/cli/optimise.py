@@ -324,6 +324,9 @@ def run(args: argparse.Namespace) -> int:
         )
     except SearchInterrupted as stop:
         return stop.exit_code  # 130 after SIGINT, 143 after SIGTERM
+    except InputError as exc:  # the stored search's name is --search-name here
+        problem = str(exc.problem).replace("--study-name", "--search-name")
+        raise InputError(exc.field, problem, exc.value) from None
     if args.csv:
         write_atomic(args.csv, res.to_frame().to_csv(index=False))
     if args.json:
