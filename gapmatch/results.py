@@ -19,14 +19,26 @@ import numpy as np
 
 from .core.engine import StackSolution
 from .core.registry import connection_model
-from .units import EV, a_m2_to_ma_cm2
+from .units import EV, K_B, Q, a_m2_to_ma_cm2
 
 if TYPE_CHECKING:  # pragma: no cover
     import pandas as pd
 
     from .model import CellConditions, Illumination, IlluminationSeries, Stack
 
-__all__ = ["Conditions", "BatchResult", "LossTable", "ThicknessSweep", "SeriesResult"]
+__all__ = [
+    "BOLTZMANN_MARGIN_KT",
+    "Conditions",
+    "BatchResult",
+    "LossTable",
+    "ThicknessSweep",
+    "SeriesResult",
+]
+
+#: smallest E_g - qV_oc [kT] at which the Boltzmann dark current is trusted: the
+#: Boltzmann and Bose-Einstein occupations of a photon at the gap differ by a factor
+#: 1 - exp(-(E_g - qV)/kT), 5 % at 3 kT (common practice, no source)
+BOLTZMANN_MARGIN_KT = 3.0
 
 
 @dataclass(frozen=True)
@@ -141,13 +153,14 @@ class LossTable:
 
     def stack(self, i: int = 0) -> dict:
         """JSON-ready breakdown of stack ``i`` [W m^-2]: ``incident``, every term's stack
-        total (``output`` included), ``closure_rel`` and ``junctions`` (per-junction
-        terms, top first; stack-level terms are not repeated there)."""
+        total (``output`` included) and ``junctions`` (per-junction terms, top first;
+        stack-level terms are not repeated there). Every number is in W m^-2; the
+        relative closure error is :meth:`closure_error` (``loss_closure_rel`` beside
+        ``losses_W_m2`` in :meth:`BatchResult.stack`)."""
         b = self.breakdown
         out: dict[str, Any] = {"incident": b.incident_W_m2}
         for k, v in self.totals().items():
             out[k] = float(v[i])
-        out["closure_rel"] = float(self.closure_error()[i])
         out["junctions"] = [
             {
                 "junction": k + 1,
@@ -408,7 +421,53 @@ class BatchResult:
                 row["jph_total_mA_cm2"] = float(a_m2_to_ma_cm2(ex["jph_total"][i, k]))
         if s.losses is not None:
             out["losses_W_m2"] = self.losses.stack(i)
+            out["loss_closure_rel"] = float(self.losses.closure_error()[i])
+        out["warnings"] = self.stack_warnings(i)
         return out
+
+    @property
+    def warnings(self) -> list[str]:
+        """What a reader of these numbers must know: model limits crossed by any stack.
+
+        With the Boltzmann dark current, a junction whose ``E_g - qV_oc`` (gap at the
+        cell temperature) is below :data:`BOLTZMANN_MARGIN_KT` ``kT`` is outside the
+        approximation's validity (at high concentration V_oc can even exceed E_g / q):
+        one sentence names the worst junction. :meth:`stack` lists stack ``i``'s own.
+
+        Returns
+        -------
+        list of str
+            One sentence per warning (empty when there is none).
+        """
+        return self.stack_warnings(None)
+
+    def stack_warnings(self, i: int | None = 0) -> list[str]:
+        """:attr:`warnings` of stack ``i`` alone (``None``: of every stack)."""
+        if self.cell is None or self.cell.dark_current != "boltzmann" or len(self) == 0:
+            return []
+        s = self.solution
+        rows = slice(None) if i is None else slice(i, i + 1)
+        kt_J = K_B * self.cell.temperature_per_junction(self.n_junctions)
+        with np.errstate(invalid="ignore"):
+            margin = (s.gaps_J[rows] - Q * s.voc_junction[rows]) / kt_J
+        margin = np.where(np.isfinite(margin), margin, np.inf)
+        bad = margin < BOLTZMANN_MARGIN_KT
+        if not bad.any():
+            return []
+        m, k = np.unravel_index(int(np.argmin(margin)), margin.shape)
+        row = m if i is None else i
+        many = int(bad.any(axis=1).sum())
+        where = f"junction {k + 1}" + (
+            f" of stack {row + 1} (and {many - 1} other stacks)" if many > 1 else ""
+        )
+        return [
+            f"Boltzmann dark current outside its validity: {where} has qV_oc = "
+            f"{s.voc_junction[row, k]:.3f} eV against a gap of "
+            f"{s.gaps_J[row, k] / EV:.3f} eV (E_g - qV_oc = {margin[m, k]:.1f} kT, below "
+            f"{BOLTZMANN_MARGIN_KT:g} kT), so V_oc and the efficiency are overestimated. "
+            "Use the Bose-Einstein dark current (--dark-current bose-einstein on the "
+            'command line, dark_current = "bose-einstein" in Python and study files).'
+        ]
 
 
 @dataclass(frozen=True, eq=False)

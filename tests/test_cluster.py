@@ -133,7 +133,7 @@ def test_map_cli_on_local_cluster(tmp_path, capsys):
 
     from gapmatch.cli import main
 
-    args = ["map", "--range", "0.8", "2.0", "--step", "0.1", "--json"]
+    args = ["map", "--x-gap-range", "0.8", "2.0", "--step", "0.1", "--json"]
     assert main(args) == 0
     local = json.loads(capsys.readouterr().out)
     assert main([*args, "--cluster", "local:2"]) == 0
@@ -182,7 +182,17 @@ def test_site_map_cli_on_local_cluster(capsys):
 
     from gapmatch.cli import main
 
-    args = ["map", "--weather", "demo", "--range", "1.6", "2.0", "--y-range", "1.0", "1.2"]
+    args = [
+        "map",
+        "--weather",
+        "demo",
+        "--x-gap-range",
+        "1.6",
+        "2.0",
+        "--y-gap-range",
+        "1.0",
+        "1.2",
+    ]
     args += ["--step", "0.1", "--json"]
     assert main(args) == 0
     local = json.loads(capsys.readouterr().out)

@@ -150,8 +150,8 @@ def test_cli_map_with_a_site(capsys, tmp_path):
     prefix = tmp_path / "site"
     code, out, _ = _run(
         capsys,
-        ["map", "--weather", "demo", "--tilt", "36", "--range", "1.5", "2.0"]
-        + ["--y-range", "0.9", "1.2", "--step", "0.1", "--out", str(prefix), "--json"],
+        ["map", "--weather", "demo", "--tilt", "36", "--x-gap-range", "1.5", "2.0"]
+        + ["--y-gap-range", "0.9", "1.2", "--step", "0.1", "--out", str(prefix), "--json"],
     )
     assert code == 0
     d = json.loads(out)

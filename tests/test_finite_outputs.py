@@ -71,7 +71,7 @@ def test_voltage_matched_and_others_non_negative_at_smallest_ere(connection):
 
 def test_map_outputs_have_no_nan_or_infinity(tmp_path, capsys):
     prefix = tmp_path / "m"
-    argv = ["map", "--range", "0.6", "1.8", "--step", "0.2", "--ere", "1e-12"]
+    argv = ["map", "--x-gap-range", "0.6", "1.8", "--step", "0.2", "--ere", "1e-12"]
     argv += ["--connections", "series", "independent", "--out", str(prefix), "--json"]
     assert main(argv) == 0
     out = capsys.readouterr().out

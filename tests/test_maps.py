@@ -228,10 +228,10 @@ def test_cli_map_writes_grid_and_summary(tmp_path, capsys):
     code = main(
         [
             "map",
-            "--range",
+            "--x-gap-range",
             "1.4",
             "1.8",
-            "--y-range",
+            "--y-gap-range",
             "0.8",
             "1.1",
             "--step",
@@ -256,7 +256,7 @@ def test_cli_map_bad_input_is_one_line(tmp_path, capsys):
 
     code = main(["map", "--step", "-1", "--out", str(tmp_path / "x")])
     err = capsys.readouterr().err.strip()
-    assert code == 2 and err.count("\n") == 0 and "step_eV" in err
+    assert code == 2 and err.count("\n") == 0 and "--step:" in err
     assert not list(tmp_path.iterdir())
 
 

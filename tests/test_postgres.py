@@ -79,7 +79,7 @@ def _cmd(url: str, name: str, trials: int, *extra: str) -> list[str]:
         str(trials),
         "--storage",
         url,
-        "--study-name",
+        "--search-name",
         name,
         "--no-progress",
         "--json",

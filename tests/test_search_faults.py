@@ -42,7 +42,7 @@ def _cmd(db: Path, name: str, trials: int, *extra: str) -> list[str]:
         str(trials),
         "--storage",
         str(db),
-        "--study-name",
+        "--search-name",
         name,
         "--no-progress",
         *extra,

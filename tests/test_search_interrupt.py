@@ -41,7 +41,7 @@ def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
         "100000",
         "--storage",
         str(db),
-        "--study-name",
+        "--search-name",
         "ctrlc",
         "--no-progress",
     ]
@@ -56,7 +56,7 @@ def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
         if proc.poll() is None:
             proc.kill()
     assert proc.returncode == 130, err[-3000:]
-    assert "Resume with" in err and "--study-name ctrlc" in err and "Traceback" not in err
+    assert "Resume with" in err and "--search-name ctrlc" in err and "Traceback" not in err
     kept = _complete(db, "ctrlc")
     assert kept >= 5
     # the printed command, with a reachable trial count, resumes the same study
@@ -71,7 +71,7 @@ def test_ctrl_c_keeps_trials_and_prints_resume(tmp_path):
         str(kept + 3),
         "--storage",
         str(db),
-        "--study-name",
+        "--search-name",
         "ctrlc",
         "--no-progress",
         "--json",

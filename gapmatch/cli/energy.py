@@ -4,10 +4,10 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 from ..core.connections import CONNECTIONS
+from .parsing import name_choice
 
 __all__ = [
     "add_parser",
@@ -52,7 +52,9 @@ def add_site_arguments(p: argparse.ArgumentParser, *, weather_default: str | Non
         + (" (default demo)" if weather_default == "demo" else "; gives annual-energy results"),
     )
     g.add_argument(
-        "--weather-format", choices=WEATHER_FORMATS, help="force the reader (default: detect)"
+        "--weather-format",
+        **name_choice(WEATHER_FORMATS),
+        help="force the reader (default: detect)",
     )
     g.add_argument(
         "--tilt",
@@ -69,13 +71,15 @@ def add_site_arguments(p: argparse.ArgumentParser, *, weather_default: str | Non
         help="plane azimuth [deg], 0-360 clockwise from north, 180 = south (tracker axis "
         "azimuth with --tracking single-axis; default 180)",
     )
-    g.add_argument("--tracking", choices=TRACKING, default="fixed", help="mounting (default fixed)")
+    g.add_argument(
+        "--tracking", **name_choice(TRACKING), default="fixed", help="mounting (default fixed)"
+    )
     g.add_argument(
         "--albedo", type=float, metavar="A", help="ground albedo, 0-1 (default: file, else 0.2)"
     )
     g.add_argument(
         "--transposition",
-        choices=TRANSPOSITION_MODELS,
+        **name_choice(TRANSPOSITION_MODELS),
         default="haydavies",
         help="sky-diffuse transposition model (default haydavies)",
     )
@@ -88,13 +92,13 @@ def add_site_arguments(p: argparse.ArgumentParser, *, weather_default: str | Non
     g.add_argument("--altitude", type=float, metavar="M", help="override the file's altitude [m]")
     g.add_argument(
         "--temperature-model",
-        choices=CELL_TEMPERATURE_MODELS,
+        **name_choice(CELL_TEMPERATURE_MODELS),
         default="sapm",
         help="cell temperature at the site: pvlib SAPM (default), Faiman, or fixed",
     )
     g.add_argument(
         "--mounting",
-        choices=SAPM_MOUNTINGS,
+        **name_choice(SAPM_MOUNTINGS),
         default="open_rack_glass_glass",
         help="SAPM mounting preset (default open_rack_glass_glass)",
     )
@@ -177,7 +181,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument(
         "--connection",
         default="series",
-        choices=CONNECTIONS,
+        **name_choice(CONNECTIONS),
         help="connection reported first (series and independent are always solved for "
         "the mismatch loss; default series)",
     )
@@ -188,7 +192,7 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     )
     c.add_argument(
         "--dark-current",
-        choices=["boltzmann", "bose-einstein"],
+        **name_choice(["boltzmann", "bose-einstein"]),
         default="boltzmann",
         help="radiative dark current form (default boltzmann)",
     )
@@ -212,8 +216,10 @@ def run(args: argparse.Namespace) -> int:
     """Run ``gapmatch yield``; returns the exit status (input errors propagate as
     :class:`gapmatch.InputError` for the CLI's one-line message)."""
     from ..energy import annual_yield, demo_weather_path
-    from ..io.atomic import write_atomic
+    from ..io.atomic import check_writable, write_atomic
 
+    if args.monthly_csv:  # before anything is computed
+        check_writable(args.monthly_csv, "--monthly-csv")
     weather = demo_weather_path() if args.weather == "demo" else args.weather
     if args.spectra:
         from ..energy import CellTemperature, read_spectra_csv, yield_from_spectra
@@ -257,7 +263,9 @@ def _print(r, args, write_atomic) -> int:
         write_atomic(args.monthly_csv, r.monthly_frame().to_csv(index=False))
     s = r.summary(0, args.connection)
     if args.json:
-        print(json.dumps(s, indent=2, default=str))
+        from ..io.finite import dumps
+
+        print(dumps(s, what="yield --json", indent=2, default=str))
         return 0
     site = s["site"]
     if "latitude_deg" in site:
@@ -288,24 +296,48 @@ def _print(r, args, write_atomic) -> int:
 
 
 def _refuse_spectrum_options(args: argparse.Namespace) -> None:
-    """With --weather the site gives the spectra: refuse one-spectrum options that
-    would otherwise be silently unused."""
+    """With --weather the site gives the spectra and the cell temperatures: refuse the
+    one-spectrum options (and a cell temperature, or one ERE per junction) that would
+    otherwise be silently unused."""
     from ..errors import InputError
 
-    given = []
-    if getattr(args, "spectrum_file", None):
-        given.append("--spectrum-file")
-    if getattr(args, "spectrum", "AM1.5G") != "AM1.5G":
-        given.append("--spectrum")
-    if getattr(args, "irradiance", None) is not None:
-        given.append("--irradiance")
-    if getattr(args, "concentration", 1.0) != 1.0:
-        given.append("--concentration")
-    if given:
+    given = set(getattr(args, "given", ()))
+    unused = (
+        "--spectrum",
+        "--spectrum-file",
+        "--spectrum-column",
+        "--sun-temperature",
+        "--irradiance",
+        "--concentration",
+        "--temperature",
+    )
+    shown = [o for o in unused if o in given]
+    # without the record of given options (a namespace built by hand): by value
+    if not given:
+        if getattr(args, "spectrum_file", None):
+            shown.append("--spectrum-file")
+        if getattr(args, "spectrum", "AM1.5G") != "AM1.5G":
+            shown.append("--spectrum")
+        if getattr(args, "irradiance", None) is not None:
+            shown.append("--irradiance")
+        if getattr(args, "concentration", 1.0) != 1.0:
+            shown.append("--concentration")
+    if shown:
         raise InputError(
             "--weather",
-            f"the site gives the hourly spectra; {', '.join(given)} cannot be used with it",
+            "the site gives the hourly spectra and cell temperatures (--temperature-model); "
+            f"{', '.join(shown)} cannot be used with it",
         )
+    ere = getattr(args, "ere", 1.0)
+    if isinstance(ere, list) and len(set(ere)) > 1:
+        raise InputError(
+            "--ere", "takes one value for every junction with --weather (annual energy)", ere
+        )
+
+
+def _one_ere(args: argparse.Namespace) -> float:
+    ere = getattr(args, "ere", 1.0)
+    return float(ere[0]) if isinstance(ere, list) else float(ere)
 
 
 def run_site_map(args: argparse.Namespace) -> int:
@@ -336,7 +368,7 @@ def run_site_map(args: argparse.Namespace) -> int:
     hs, ct = site_from_args(args)
     x = tuple(args.x_range)
     y = tuple(args.y_range) if args.y_range else x
-    kw = dict(cell_temperature=ct, ere=args.ere, dark_current=args.dark_current)
+    kw = dict(cell_temperature=ct, ere=_one_ere(args), dark_current=args.dark_current)
     with connect(getattr(args, "cluster", None)) as client:
         m = yield_map(hs, x, y, args.step, client=client, progress=sys.stderr.isatty(), **kw)
     summary = m.summary()

@@ -11,7 +11,11 @@ from ..io.finite import check_frame, dumps
 from ..maps import OTHERS_MODES, compute_map
 from .commands import COMMANDS
 from .energy import add_site_arguments
-from .options import add_condition_options, condition_kwargs
+from .options import add_condition_options, condition_kwargs, output_notes
+from .parsing import names, old_spelling
+
+CONNECTION_TYPE, CONNECTION_NAMES = names(CONNECTIONS)
+OTHERS_TYPE, OTHERS_NAMES = names(OTHERS_MODES)
 
 
 def register(sub) -> None:
@@ -23,8 +27,8 @@ def register(sub) -> None:
         "as a CSV (one row per point) and a JSON summary (optimum and tolerance window per "
         "connection). Theoretical limits, not ratings.",
     )
-    p.add_argument(
-        "--range",
+    x_range = p.add_argument(
+        "--x-gap-range",
         dest="x_range",
         type=float,
         nargs=2,
@@ -32,13 +36,16 @@ def register(sub) -> None:
         metavar=("LO", "HI"),
         help="gaps of the first axis (default top) [eV], within 0.1-5.0 (default 0.5 2.5)",
     )
-    p.add_argument(
-        "--y-range",
+    old_spelling(p, "--range", x_range)
+    y_range = p.add_argument(
+        "--y-gap-range",
+        dest="y_range",
         type=float,
         nargs=2,
         metavar=("LO", "HI"),
-        help="gaps of the second axis (default bottom) [eV] (default: as --range)",
+        help="gaps of the second axis (default bottom) [eV] (default: as --x-gap-range)",
     )
+    old_spelling(p, "--y-range", y_range)
     p.add_argument(
         "--step",
         type=float,
@@ -50,8 +57,9 @@ def register(sub) -> None:
         "--connections",
         nargs="+",
         default=["series", "independent"],
-        choices=CONNECTIONS,
-        help="connections to map (default series independent)",
+        type=CONNECTION_TYPE,
+        choices=CONNECTION_NAMES,
+        help="connections to map, any case (default series independent)",
     )
     p.add_argument(
         "--stack",
@@ -68,13 +76,16 @@ def register(sub) -> None:
         metavar=("I", "J"),
         help="junction numbers on the x and y axes (1 = top; default top and bottom)",
     )
-    p.add_argument(
-        "--others",
-        choices=OTHERS_MODES,
+    others = p.add_argument(
+        "--other-gaps",
+        dest="others",
+        type=OTHERS_TYPE,
+        choices=OTHERS_NAMES,
         default="fixed",
-        help="junctions not on the axes: held fixed at --stack or re-optimised at "
-        "every point (default fixed)",
+        help="gaps of the junctions not on the axes: held fixed at --stack or "
+        "re-optimised at every point (default fixed)",
     )
+    old_spelling(p, "--others", others)
     p.add_argument(
         "--tolerance",
         type=float,
@@ -98,11 +109,17 @@ def register(sub) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.out:  # before anything is computed
+        from ..io.atomic import check_writable
+
+        for suffix in ("_map.csv", "_summary.json"):
+            check_writable(f"{args.out}{suffix}", "--out")
     if getattr(args, "weather", None):  # annual energy at a site (gapmatch.cli.energy)
         from .energy import run_site_map
 
         return run_site_map(args)
-    kw = condition_kwargs(args)
+    n = len(args.stack) if args.stack else 2
+    kw = condition_kwargs(args, n)
     if args.cluster:
         from ..cluster import connect
 
@@ -111,6 +128,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         m = _compute(args, kw, None)
     summary = m.summary(args.tolerance)
+    summary["notes"] = output_notes(args)
     if args.out:
         from ..io.atomic import write_atomic
 
@@ -151,6 +169,7 @@ def format_summary(s: dict) -> str:
         f"({g['nx']} x {g['ny']} points), {s['n_junctions']} junctions"
         + ("" if s["others"] == "none" else f", others {s['others']}"),
         f"Spectrum: {s['conditions']['spectrum']}",
+        *(f"Note: {x}" for x in s.get("notes", [])),
         "",
         f"{'connection':>16} {'efficiency [%]':>15} {'gaps, top first [eV]':>26} "
         f"{'window x [eV]':>14} {'window y [eV]':>14}",

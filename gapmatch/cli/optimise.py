@@ -3,18 +3,44 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 from ..core.registry import CONNECTIONS
 from ..errors import InputError
-from ..io.atomic import write_atomic
+from ..io.atomic import check_writable, write_atomic
+from ..io.finite import dumps
 from ..search import SAMPLERS, SearchInterrupted, make_problem, optimise
 from ..search.runner import default_study_name, shell_join
 from ..search.storage import DEFAULT_STORAGE
 from .commands import COMMANDS
 from .energy import add_site_arguments
-from .options import add_condition_options, condition_kwargs
+from .options import add_condition_options, condition_kwargs, output_notes
+from .parsing import names, old_spelling
+
+CONNECTION_TYPE, CONNECTION_NAMES = names(CONNECTIONS)
+SAMPLER_TYPE, SAMPLER_NAMES = names(SAMPLERS)
+#: what a study file sets: these options cannot be combined with --study
+STUDY_SETS = (
+    "--junctions",
+    "--connection",
+    "--cells-per-string",
+    "--bounds",
+    "--fix",
+    "--min-spacing",
+    "--min-photocurrent-ratio",
+    "--robustness",
+    "--spectrum",
+    "--sun-temperature",
+    "--spectrum-file",
+    "--spectrum-column",
+    "--irradiance",
+    "--concentration",
+    "--temperature",
+    "--ere",
+    "--dark-current",
+)
+#: allowed seeds (numpy and optuna samplers take 32-bit unsigned seeds)
+SEED_RANGE = (0, 2**32 - 1)
 
 
 def register(sub) -> None:
@@ -37,14 +63,17 @@ def register(sub) -> None:
         "--study",
         metavar="TOML",
         help="run the search a study file describes ([search] table, with the study's "
-        "spectrum, conditions and materials); --trials and --seed override the file",
+        "spectrum, conditions and materials); --trials and --seed override the file; "
+        "options the file sets (--junctions, --connection, the constraints, spectrum "
+        "and conditions) are refused with it",
     )
     p.add_argument(
         "--connection",
         default="series",
-        choices=CONNECTIONS,
+        type=CONNECTION_TYPE,
+        choices=CONNECTION_NAMES,
         help="series (two-terminal), independent (multi-terminal) or "
-        "voltage-matched (default series)",
+        "voltage-matched; any case (default series)",
     )
     p.add_argument(
         "--cells-per-string",
@@ -66,7 +95,9 @@ def register(sub) -> None:
         nargs="+",
         metavar="J=EV",
         default=[],
-        help="fix junction J (1 = top, or 'bottom') at a gap [eV], e.g. --fix bottom=1.12",
+        action="extend",
+        help="fix junction J (1 = top, or 'top' / 'bottom') at a gap [eV], e.g. --fix "
+        "bottom=1.12; one value per junction (may be repeated for other junctions)",
     )
     g.add_argument(
         "--min-spacing",
@@ -75,12 +106,15 @@ def register(sub) -> None:
         metavar="EV",
         help="smallest difference between neighbouring gaps [eV], 0-1 (default 0.05)",
     )
-    g.add_argument(
-        "--min-mismatch-ratio",
+    ratio = g.add_argument(
+        "--min-photocurrent-ratio",
+        dest="min_photocurrent_ratio",
         type=float,
         metavar="R",
-        help="smallest allowed min/max junction photocurrent ratio, (0, 1], e.g. 0.95",
+        help="smallest allowed ratio of the smallest to the largest junction "
+        "photocurrent, J_min / J_max, (0, 1], e.g. 0.95 (default: no limit)",
     )
+    old_spelling(g, "--min-mismatch-ratio", ratio)
     g.add_argument(
         "--robustness",
         type=float,
@@ -99,7 +133,12 @@ def register(sub) -> None:
         help="total optuna trials of the study (default 20 + 5 per free gap, "
         "doubled with --robustness); a resumed study runs only the missing ones",
     )
-    s.add_argument("--seed", type=int, default=None, help="random seed (default 0)")
+    s.add_argument(
+        "--seed",
+        type=int,
+        default=None,
+        help=f"random seed, a whole number {SEED_RANGE[0]}-{SEED_RANGE[1]} (default 0)",
+    )
     s.add_argument(
         "--workers",
         type=int,
@@ -110,7 +149,8 @@ def register(sub) -> None:
     s.add_argument(
         "--sampler",
         default="tpe",
-        choices=SAMPLERS,
+        type=SAMPLER_TYPE,
+        choices=SAMPLER_NAMES,
         help="optuna sampler of the trial stage (default tpe)",
     )
     s.add_argument(
@@ -119,12 +159,15 @@ def register(sub) -> None:
         help=f"SQLite file or optuna database URL, e.g. postgresql://user@host/db "
         f"(default {DEFAULT_STORAGE}); ':memory:' keeps nothing",
     )
-    s.add_argument(
-        "--study-name",
+    search_name = s.add_argument(
+        "--search-name",
+        dest="search_name",
         metavar="NAME",
-        help="study to create or resume (default: derived from the problem, the seed and "
-        "the sampler; an existing study made with other settings is an error)",
+        help="name of the stored search (optuna study) to create or resume (default: "
+        "derived from the problem, the seed and the sampler; an existing search made "
+        "with other settings is an error)",
     )
+    old_spelling(s, "--study-name", search_name)
     s.add_argument("--csv", metavar="PATH", help="write every trial to this CSV file")
     s.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_condition_options(p)
@@ -154,9 +197,15 @@ def _fixed(items: list[str], n: int) -> dict[int, float]:
                     "--fix", "junction must be a number (1 = top), 'top' or 'bottom'", it
                 ) from None
         try:
-            out[j] = float(val)
+            gap = float(val)
         except ValueError:
             raise InputError("--fix", "gap must be a number [eV]", it) from None
+        if j in out:
+            raise InputError(
+                "--fix",
+                f"junction {j} is fixed twice ({out[j]:g} and {gap:g} eV); fix each junction once",
+            )
+        out[j] = gap
     return out
 
 
@@ -180,9 +229,22 @@ def _bounds(items: list[str] | None, n: int):
     return wins
 
 
+def _refuse_with_study(args: argparse.Namespace) -> None:
+    """The study file sets the problem and its conditions: options that would change
+    them are refused (they would otherwise be silently ignored)."""
+    given = [o for o in STUDY_SETS if o in set(getattr(args, "given", ()))]
+    if given:
+        raise InputError(
+            "--study",
+            f"the study file sets the problem and its conditions; {', '.join(given)} "
+            "cannot be used with it (edit the file, or leave out --study)",
+        )
+
+
 def _problem_from_args(args: argparse.Namespace):
     """The search problem and its default trials and seed, from a study or the options."""
     if args.study:
+        _refuse_with_study(args)
         from ..search.study_table import problem_from_study, search_settings
         from ..study import load_study
 
@@ -195,37 +257,58 @@ def _problem_from_args(args: argparse.Namespace):
             "--junctions",
             "is required (a whole number from 2 to 6) unless --study names a study file",
         )
-    cond = condition_kwargs(args)
-    if args.cells_per_string is not None:
-        cond["cells_per_string"] = args.cells_per_string
     if not isinstance(n, int) or not 2 <= n <= 6:
         raise InputError("--junctions", "must be a whole number from 2 to 6", n)
+    if getattr(args, "spectrum_column", None) is not None:
+        raise InputError(
+            "--spectrum-column",
+            "is not available for optimise (a stored search records the spectrum by its "
+            "file); save that column as a two-column file for --spectrum-file",
+        )
+    cond = condition_kwargs(args, n)
+    if args.cells_per_string is not None:
+        cond["cells_per_string"] = args.cells_per_string
     problem = make_problem(
         n,
         args.connection,
         bounds_eV=_bounds(args.bounds, n),
         fixed_eV=_fixed(args.fix, n) or None,
         min_spacing_eV=args.min_spacing,
-        min_mismatch_ratio=args.min_mismatch_ratio,
+        min_mismatch_ratio=args.min_photocurrent_ratio,
         robustness_eV=args.robustness,
         **cond,
     )
     return problem, None, 0
 
 
+def _check_before_search(args: argparse.Namespace) -> None:
+    """Checks that need no computing, made before the search starts."""
+    if args.seed is not None and not SEED_RANGE[0] <= args.seed <= SEED_RANGE[1]:
+        raise InputError(
+            "--seed", f"must be a whole number in [{SEED_RANGE[0]}, {SEED_RANGE[1]}]", args.seed
+        )
+    if args.workers is not None and args.workers < 1:
+        raise InputError("--workers", "must be a whole number of at least 1", args.workers)
+    if args.trials is not None and args.trials < 1:
+        raise InputError("--trials", "must be a whole number of at least 1", args.trials)
+    if args.csv:
+        check_writable(args.csv, "--csv")
+
+
 def run(args: argparse.Namespace) -> int:
+    _check_before_search(args)
     problem, default_trials, default_seed = _problem_from_args(args)
     trials = args.trials if args.trials is not None else default_trials
     seed = args.seed if args.seed is not None else default_seed
     if getattr(args, "weather", None):  # annual energy at a site (gapmatch.cli.energy)
         from .energy import run_site_search
 
-        return run_site_search(args, problem, trials=trials, seed=seed, study_name=args.study_name)
-    study_name = args.study_name or default_study_name(problem, seed=seed, sampler=args.sampler)
+        return run_site_search(args, problem, trials=trials, seed=seed, study_name=args.search_name)
+    study_name = args.search_name or default_study_name(problem, seed=seed, sampler=args.sampler)
     argv = ["gapmatch", *sys.argv[1:]] if sys.argv and "gapmatch" in sys.argv[0] else None
     resume = shell_join(
         (argv or ["gapmatch", "optimise", "..."])
-        + ([] if args.study_name else ["--study-name", study_name])
+        + ([] if args.search_name else ["--search-name", study_name])
     )
     try:
         res = optimise(
@@ -241,6 +324,9 @@ def run(args: argparse.Namespace) -> int:
         )
     except SearchInterrupted as stop:
         return stop.exit_code  # 130 after SIGINT, 143 after SIGTERM
+    except InputError as exc:  # the stored search's name is --search-name here
+        problem = str(exc.problem).replace("--study-name", "--search-name")
+        raise InputError(exc.field, problem, exc.value) from None
     if args.csv:
         write_atomic(args.csv, res.to_frame().to_csv(index=False))
     if args.json:
@@ -249,7 +335,8 @@ def run(args: argparse.Namespace) -> int:
         out = res.to_dict()
         meta = out.pop("search")
         out.pop("robust_optima", None)
-        print(json.dumps(out, indent=2))
+        out["notes"] = output_notes(args) if not args.study else []
+        print(dumps(out, what="optimise --json", indent=2))
         print(
             f"study {meta['study_name']!r} in {meta['storage']}: {meta['trials']} trials"
             f"{' (resumed)' if meta['resumed'] else ''}, seed {meta['seed']}, "
@@ -257,11 +344,11 @@ def run(args: argparse.Namespace) -> int:
             file=sys.stderr,
         )
         return 0
-    print(format_summary(res))
+    print(format_summary(res, output_notes(args) if not args.study else []))
     return 0
 
 
-def format_summary(res) -> str:
+def format_summary(res, notes: list[str] = ()) -> str:
     """Readable text summary of a search (units in every header)."""
     d = res.best
     lines = [
@@ -269,7 +356,8 @@ def format_summary(res) -> str:
         f"{' / '.join(f'{g:.4f}' for g in d['gaps_eV'])} eV, "
         f"efficiency {d['efficiency_pct']:.3f} %",
         f"Spectrum: {d['conditions']['spectrum']}",
-        f"Study {res.study_name!r} in {res.storage}: {res.n_trials} trials"
+        *(f"Note: {x}" for x in notes),
+        f"Search {res.study_name!r} in {res.storage}: {res.n_trials} trials"
         f"{' (resumed)' if res.resumed else ''}, seed {res.seed}, {res.elapsed_s:.1f} s; "
         + (
             "polished to a local maximum (no better neighbour at 1e-4 eV)"
@@ -290,6 +378,8 @@ def format_summary(res) -> str:
                 f"     {gaps:<44} {100 * r['efficiency']:8.3f} % "
                 f"(worst {100 * r['worst_efficiency']:.3f} %)"
             )
+    for w in d.get("warnings", []):
+        lines.append(f"Warning: {w}")
     lines.append(
         "Detailed-balance limit under ideal assumptions: a theoretical ceiling, not a rating."
     )
