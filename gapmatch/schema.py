@@ -32,6 +32,7 @@ __all__ = [
     "Str",
     "Choice",
     "List",
+    "Either",
     "PerJunction",
     "Table",
     "Records",
@@ -298,6 +299,40 @@ class List(Field):
         if self.unique and len(set(map(repr, out))) != len(out):
             raise InputError(path, "entries must not repeat", value)
         return out
+
+
+class Either(Field):
+    """A whole number (``number``) or a string (``text``): e.g. a column given by its
+    number or its header name."""
+
+    def __init__(
+        self,
+        number: Int,
+        text: Str,
+        *,
+        default: Any = _MISSING,
+        doc: str = "",
+        example: Any = _MISSING,
+    ) -> None:
+        super().__init__(default, doc, example)
+        self.number, self.text = number, text
+
+    @property
+    def kind(self) -> str:  # type: ignore[override]
+        return f"{self.number.kind} or {self.text.kind}"
+
+    def allowed(self) -> str:
+        return f"{self.number.allowed()}, or {self.text.allowed()}"
+
+    def describe(self) -> str:
+        return f"{self.number.describe()}, or {self.text.describe()}"
+
+    def check(self, value, path):
+        if isinstance(value, str):
+            return self.text.check(value, path)
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise InputError(path, f"must be {self.describe()}, not {_typename(value)}", value)
+        return self.number.check(value, path)
 
 
 class PerJunction(Field):

@@ -69,6 +69,7 @@ from .model import CellConditions, Illumination
 from .schema import (
     Bool,
     Choice,
+    Either,
     Field,
     Int,
     List,
@@ -252,6 +253,15 @@ STUDY_SCHEMA = Table(
                     "from its header (wavelength nm/um/eV; W m^-2 nm^-1, W m^-2 um^-1, "
                     "mW cm^-2 nm^-1), else nm and W m^-2 nm^-1 are assumed and said",
                     example="spectra/site.csv",
+                ),
+                "spectrum_column": Either(
+                    Int(2, 10_000),
+                    Str(min_len=1, max_len=200),
+                    default=None,
+                    doc="the irradiance column of spectrum_file: its 1-based number "
+                    "(1 = wavelength) or its header name; required when the file has more "
+                    "than two columns",
+                    example="global",
                 ),
                 "sun_temperature_K": Num(
                     1000.0,
@@ -695,6 +705,9 @@ class Study:
     notices : list of str
         Warnings about the file that did not stop it (old key names, each naming the
         new key); also logged on the ``gapmatch.study`` logger.
+    spectrum_column : int, str or None
+        ``conditions.spectrum_column``: the irradiance column of the spectrum file (kept
+        out of ``conditions``; :attr:`illumination` reads the file with it).
     """
 
     name: str
@@ -714,6 +727,7 @@ class Study:
     path: Path | None = None
     sha256: str = ""
     notices: list[str] = field(default_factory=list)
+    spectrum_column: int | str | None = None
 
     @property
     def n_junctions(self) -> int:
@@ -761,6 +775,28 @@ class Study:
     def illumination(self) -> Illumination:
         """The study's illumination, built (and a spectrum file read) once."""
         c = self.conditions
+        if self.spectrum_column is not None:
+            # a chosen column of a file: the one-sun spectrum object carries the choice,
+            # so a re-evaluation rebuilds the illumination from it
+            from types import MappingProxyType
+
+            from .io.spectra import get_spectrum, read_spectrum_csv
+
+            one_sun = read_spectrum_csv(c["spectrum_file"], column=self.spectrum_column)
+            spec = get_spectrum(
+                spectrum_file=c["spectrum_file"],
+                spectrum_column=self.spectrum_column,
+                irradiance_W_m2=c["irradiance_W_m2"],
+                concentration=c["concentration"],
+            )
+            opts = {
+                "spectrum": one_sun,
+                "spectrum_file": None,
+                "sun_temperature_K": c["sun_temperature_K"],
+                "irradiance_W_m2": c["irradiance_W_m2"],
+                "concentration": c["concentration"],
+            }
+            return Illumination(spec, MappingProxyType(opts))
         return Illumination.from_options(
             c["spectrum"],
             spectrum_file=c["spectrum_file"],
@@ -869,6 +905,7 @@ def load_study(path: str | Path) -> Study:
 def _build(v: dict, base_dir: Path | None, raw: bytes, data: dict | None = None) -> Study:
     s = v["study"]
     cond = _conditions(v["conditions"], base_dir, data or {})
+    column = cond.pop("spectrum_column")
 
     m = dict(v["map"])
     if m["y_gap_range_eV"] is None:
@@ -984,6 +1021,7 @@ def _build(v: dict, base_dir: Path | None, raw: bytes, data: dict | None = None)
         extra=extra,
         site=site,
         sha256=hashlib.sha256(raw).hexdigest(),
+        spectrum_column=column,
     )
     if cond["spectrum_file"] is not None:
         # read (and validate) the spectrum file now, before anything is computed
@@ -1031,6 +1069,12 @@ def _conditions(c: dict, base_dir: Path | None, data: dict) -> dict:
         raise InputError(
             "conditions.spectrum_file",
             "is required with spectrum = 'file': the path of a CSV spectrum",
+        )
+    if cond["spectrum_file"] is None and cond["spectrum_column"] is not None:
+        raise InputError(
+            "conditions.spectrum_column",
+            "applies to a spectrum_file only",
+            cond["spectrum_column"],
         )
     if cond["spectrum"] != "blackbody" and cond["sun_temperature_K"] != 6000.0:
         raise InputError(

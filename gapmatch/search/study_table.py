@@ -79,6 +79,11 @@ def problem_from_study(study: Study) -> SearchProblem:
             bounds.append((lo, hi))
             fixed[k] = m.gap_eV
     conditions = dict(study.conditions)
+    if study.spectrum_column is not None:
+        # a chosen column of a spectrum file: search under the study's spectrum itself
+        for k in ("spectrum_file", "sun_temperature_K", "irradiance_W_m2", "concentration"):
+            conditions.pop(k, None)
+        conditions["spectrum"] = study.illumination.spectrum
     return make_problem(
         n,
         cfg["connection"],
