@@ -13,6 +13,7 @@ conditions) and :func:`gapmatch.jv.jv_curve` need nothing re-specified.
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import numpy as np
@@ -47,7 +48,85 @@ __all__ = [
     "check_gaps",
     "check_cell_conditions",
     "jv_curve",
+    "LOSS_BYTES_PER_STACK_JUNCTION",
+    "loss_memory_estimate_bytes",
+    "loss_memory_limit_bytes",
 ]
+
+#: peak memory of an evaluation with the loss breakdown, per stack and junction [bytes]:
+#: 395-410 B measured with tracemalloc by ``benchmarks/loss_memory.py`` (2 and 3
+#: junctions, ideal and finite-absorber paths); rounded up
+LOSS_BYTES_PER_STACK_JUNCTION = 450
+#: extra memory of one finite-absorber work unit per stack and junction [bytes] (its
+#: spectral grid; 1.4e5-2.0e5 B measured by the same script), times the stacks of a unit
+#: (256) and the worker threads
+WORK_UNIT_BYTES_PER_STACK_JUNCTION = 2.1e5
+#: stacks per finite-absorber work unit (gapmatch.core.engine.solve_stacks_nonideal)
+_UNIT_STACKS = 256
+#: environment variable that sets the memory limit of a batch with losses [GB]
+MEMORY_LIMIT_ENV = "GAPMATCH_MEMORY_LIMIT_GB"
+
+
+def loss_memory_limit_bytes() -> int:
+    """Largest memory a batch evaluation with losses may need [bytes].
+
+    ``GAPMATCH_MEMORY_LIMIT_GB`` if set (a positive number of GB, 1 GB = 1e9 bytes),
+    else half the physical memory of the machine (4 GB where it cannot be read).
+    """
+    given = os.environ.get(MEMORY_LIMIT_ENV)
+    if given is not None:
+        try:
+            gb = float(given)
+        except ValueError:
+            gb = float("nan")
+        if not gb > 0 or gb == float("inf"):
+            raise InputError(MEMORY_LIMIT_ENV, "must be a positive number of GB", given)
+        return int(gb * 1e9)
+    try:
+        return int(os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE") // 2)
+    except (AttributeError, ValueError, OSError):  # pragma: no cover - not POSIX
+        return int(4e9)
+
+
+def loss_memory_estimate_bytes(n_stacks: int, n_junctions: int, *, finite: bool = False) -> int:
+    """Peak memory of evaluating a batch with the loss breakdown [bytes].
+
+    Parameters
+    ----------
+    n_stacks, n_junctions : int
+        Batch size.
+    finite : bool
+        Finite absorbers (or other optics on a spectral grid): add the work units'
+        grids (:data:`WORK_UNIT_BYTES_PER_STACK_JUNCTION` for each stack of the units
+        that run at once, one per CPU).
+
+    Returns
+    -------
+    int
+        :data:`LOSS_BYTES_PER_STACK_JUNCTION` per stack and junction, plus the work units.
+    """
+    m, n = int(n_stacks), int(n_junctions)
+    need = m * n * LOSS_BYTES_PER_STACK_JUNCTION
+    if finite:
+        need += int(
+            min(m, _UNIT_STACKS * (os.cpu_count() or 1)) * n * WORK_UNIT_BYTES_PER_STACK_JUNCTION
+        )
+    return need
+
+
+def _check_loss_memory(m: int, n: int, finite: bool) -> None:
+    need = loss_memory_estimate_bytes(m, n, finite=finite)
+    limit = loss_memory_limit_bytes()
+    if need > limit:
+        parts = max(1, limit // (n * LOSS_BYTES_PER_STACK_JUNCTION))
+        raise InputError(
+            "losses",
+            f"a loss breakdown of {m:,} stacks x {n} junctions needs about "
+            f"{need / 1e9:.3g} GB, above the limit of {limit / 1e9:.3g} GB "
+            f"({MEMORY_LIMIT_ENV}, default half the machine's memory); evaluate the batch "
+            f"in parts of at most {parts:,} stacks, or without losses",
+        )
+
 
 _SPECTRUM_DEFAULTS = {
     "spectrum_file": None,
@@ -204,7 +283,10 @@ def evaluate(
         Series resistance [ohm cm^2], 0 to 100: one value (series stack, or every sub-cell
         in independent connection) or one per junction (independent only).
     losses : bool
-        Also compute the loss breakdown (``BatchResult.losses``).
+        Also compute the loss breakdown (``BatchResult.losses``). A batch whose
+        breakdown would need more memory than the limit is refused before anything is
+        computed (see :func:`solve`: about 450 bytes per stack and junction; limit
+        ``GAPMATCH_MEMORY_LIMIT_GB``, default half the machine's memory).
 
     Returns
     -------
@@ -283,7 +365,12 @@ def solve(
     cell : CellConditions, optional
         Cell temperature, ERE and dark-current form (default 300 K, ERE 1, Boltzmann).
     losses : bool
-        Also compute the loss breakdown.
+        Also compute the loss breakdown. Its peak memory is estimated first
+        (:func:`loss_memory_estimate_bytes`: about 450 bytes per stack and junction, so
+        5 million two-junction stacks need 4.5 GB); a batch above
+        :func:`loss_memory_limit_bytes` (``GAPMATCH_MEMORY_LIMIT_GB``, default half the
+        machine's memory) is refused with an :class:`InputError` naming the batch size,
+        the estimate and the limit, before anything is computed.
 
     Returns
     -------
@@ -296,6 +383,9 @@ def solve(
     .. [2] A. De Vos, J. Phys. D 13, 839 (1980).
     """
     cell = cell or CellConditions()
+    if losses:
+        finite = stack.physics is not None and not stack.physics.device.all_step()
+        _check_loss_memory(*stack.gaps_eV.shape, finite)
     spec = illumination.spectrum
     gaps_J = stack.gaps_eV * EV
     ratio = None if stack.cells_per_string is None else np.asarray(stack.cells_per_string)

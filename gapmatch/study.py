@@ -40,8 +40,10 @@ section registry by the report (before it computes anything).
 from __future__ import annotations
 
 import hashlib
+import logging
 import re
 import tomllib
+import warnings
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
@@ -55,9 +57,29 @@ from .energy.readers import WEATHER_FORMATS
 from .energy.spectra import TRANSPOSITION_MODELS
 from .errors import InputError
 from .io.spectra import SPECTRUM_CHOICES
-from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, TEMPERATURE_RANGE_K, check_gaps
+from .limits import (
+    ERE_RANGE,
+    GAP_RANGE_EV,
+    MAX_JUNCTIONS,
+    MAX_MAP_POINTS,
+    TEMPERATURE_RANGE_K,
+    check_gaps,
+)
 from .model import CellConditions, Illumination
-from .schema import Bool, Choice, Field, Int, List, Num, Records, Str, Table
+from .schema import (
+    Bool,
+    Choice,
+    Either,
+    Field,
+    Int,
+    List,
+    Num,
+    PerJunction,
+    Records,
+    RenamedKeyWarning,
+    Str,
+    Table,
+)
 
 __all__ = [
     "Study",
@@ -85,10 +107,12 @@ __all__ = [
 
 # ---- the study schema ---------------------------------------------------------------------
 _GAP = Num(*GAP_RANGE_EV, "eV")
-_NAME = Str(min_len=1, max_len=120)
 
 #: ``weather = "pvlib:NAME"`` names a file of pvlib's data folder (its sample weather files)
 PVLIB_DATA_PREFIX = "pvlib:"
+
+#: ``conditions.spectrum``: a standard table, a blackbody sun, or a file
+STUDY_SPECTRA = (*SPECTRUM_CHOICES, "file")
 
 #: ``[site]``: where the stack works, for energy yield (optional; see :class:`Site`)
 SITE_TABLE = Table(
@@ -98,26 +122,66 @@ SITE_TABLE = Table(
             max_len=1000,
             doc="weather file (TMY3, TMY2, EPW or plain CSV), relative to the study file; "
             "'pvlib:723170TYA.CSV' names a sample file pvlib ships",
+            example="pvlib:723170TYA.CSV",
         ),
-        "weather_format": Choice(WEATHER_FORMATS, default=None, doc="default: from the file"),
-        "tilt_deg": Num(0.0, 90.0, "deg", default=30.0, doc="fixed plane tilt"),
+        "weather_format": Choice(
+            WEATHER_FORMATS, default=None, doc="reader of the weather file; default: from the file"
+        ),
+        "tilt_deg": Num(0.0, 90.0, "deg", default=30.0, doc="fixed plane tilt from horizontal"),
         "azimuth_deg": Num(
             0.0, 360.0, "deg", default=180.0, doc="plane (or tracker axis) azimuth, 180 = south"
         ),
-        "tracking": Choice(TRACKING, default="fixed"),
-        "albedo": Num(0.0, 1.0, default=None, doc="ground albedo; default the file's, else 0.2"),
-        "temperature_model": Choice(CELL_TEMPERATURE_MODELS, default="sapm"),
-        "mounting": Choice(SAPM_MOUNTINGS, default="open_rack_glass_glass", doc="SAPM preset"),
-        "fixed_temperature_K": Num(200.0, 400.0, "K", default=298.15, doc="model 'fixed' only"),
-        "transposition": Choice(TRANSPOSITION_MODELS, default="haydavies"),
-        "latitude_deg": Num(-90.0, 90.0, "deg", default=None, doc="overrides the file's"),
-        "longitude_deg": Num(-180.0, 180.0, "deg", default=None, doc="east positive"),
-        "altitude_m": Num(-500.0, 9000.0, "m", default=None, doc="overrides the file's"),
-        "map_top_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [1.4, 2.2]),
-        "map_bottom_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [0.7, 1.4]),
+        "tracking": Choice(
+            TRACKING, default="fixed", doc="fixed plane or single-axis tracker (sets its own tilt)"
+        ),
+        "albedo": Num(
+            0.0, 1.0, default=None, doc="ground albedo (fraction); default the file's, else 0.2"
+        ),
+        "temperature_model": Choice(
+            CELL_TEMPERATURE_MODELS,
+            default="sapm",
+            doc="cell temperature model (pvlib's SAPM or Faiman, or a fixed temperature)",
+        ),
+        "mounting": Choice(
+            SAPM_MOUNTINGS,
+            default="open_rack_glass_glass",
+            doc="SAPM mounting preset (temperature_model 'sapm' only)",
+        ),
+        "fixed_temperature_K": Num(
+            200.0, 400.0, "K", default=298.15, doc="cell temperature of temperature_model 'fixed'"
+        ),
+        "transposition": Choice(
+            TRANSPOSITION_MODELS, default="haydavies", doc="sky-diffuse transposition model"
+        ),
+        "latitude_deg": Num(
+            -90.0, 90.0, "deg", default=None, doc="site latitude; overrides the file's"
+        ),
+        "longitude_deg": Num(
+            -180.0,
+            180.0,
+            "deg",
+            default=None,
+            doc="site longitude, east positive; overrides the file's",
+        ),
+        "altitude_m": Num(-500.0, 9000.0, "m", default=None, doc="altitude; overrides the file's"),
+        "map_top_eV": List(
+            _GAP,
+            min_len=2,
+            max_len=2,
+            default=lambda: [1.4, 2.2],
+            doc="top-gap range [low, high] of the annual-energy map",
+        ),
+        "map_bottom_eV": List(
+            _GAP,
+            min_len=2,
+            max_len=2,
+            default=lambda: [0.7, 1.4],
+            doc="bottom-gap range [low, high] of the annual-energy map",
+        ),
         "map_step_eV": Num(0.01, 0.2, "eV", default=0.05, doc="annual-energy map grid step"),
     },
     default=None,
+    doc="Energy yield at a site: weather file, collector plane and cell temperature model",
 )
 
 STUDY_SCHEMA = Table(
@@ -130,17 +194,27 @@ STUDY_SCHEMA = Table(
                     pattern=r"[A-Za-z0-9][A-Za-z0-9_.-]*",
                     pattern_doc="letters, digits, '-', '_' and '.', starting with a letter "
                     "or digit; it names the report file",
+                    doc="short name of the study; the report is <name>.html",
+                    example="my-study",
                 ),
-                "title": Str(min_len=1, max_len=200),
-                "author": Str(max_len=200, default=""),
-                "organisation": Str(max_len=200, default=""),
-                "description": Str(max_len=5000, default=""),
+                "title": Str(
+                    min_len=1,
+                    max_len=200,
+                    doc="title of the report",
+                    example="Wide-gap top cells on silicon",
+                ),
+                "author": Str(max_len=200, default="", doc="person who wrote the study"),
+                "organisation": Str(max_len=200, default="", doc="organisation the study is for"),
+                "description": Str(
+                    max_len=5000, default="", doc="the question the study answers, in words"
+                ),
                 "connections": List(
                     Choice(CONNECTIONS),
                     min_len=1,
                     max_len=len(CONNECTIONS),
                     unique=True,
                     default=lambda: ["series", "independent"],
+                    doc="how the sub-cells are connected: the connections to compare",
                 ),
                 # names only: the report checks them against its registry before it
                 # computes anything (gapmatch.report.registry.check_section_names)
@@ -155,69 +229,233 @@ STUDY_SCHEMA = Table(
                     max_len=100,
                     unique=True,
                     default=list,
+                    doc="report sections in order; [] = the report's default sections",
+                    example=["map", "stacks", "assumptions"],
                 ),
-            }
+            },
+            doc="What the study is and which report sections it has",
         ),
         "conditions": Table(
             {
-                "spectrum": Choice(SPECTRUM_CHOICES, default="AM1.5G"),
-                "spectrum_file": Str(min_len=1, max_len=1000, default=None),
-                "sun_temperature_K": Num(1000.0, 20000.0, "K", default=6000.0),
-                "irradiance_W_m2": Num(0.0, 1e5, "W m^-2", low_open=True, default=None),
-                "concentration": Num(0.0, MAX_CONCENTRATION, "suns", low_open=True, default=1.0),
-                "temperature_K": Num(*TEMPERATURE_RANGE_K, "K", default=300.0),
-                "ere": Num(0.0, 1.0, low_open=True, default=1.0),
-                "dark_current": Choice(DARK_MODELS, default="boltzmann"),
+                "spectrum": Choice(
+                    STUDY_SPECTRA,
+                    default="AM1.5G",
+                    doc="the incident light: an ASTM G173-03 table (AM1.5G global tilt, "
+                    "AM1.5D direct, AM0 extraterrestrial), a blackbody sun "
+                    "(sun_temperature_K), or 'file' (spectrum_file); 'file' is implied "
+                    "when only spectrum_file is given",
+                ),
+                "spectrum_file": Str(
+                    min_len=1,
+                    max_len=1000,
+                    default=None,
+                    doc="CSV spectrum (spectrum = 'file'), relative to the study file; units "
+                    "from its header (wavelength nm/um/eV; W m^-2 nm^-1, W m^-2 um^-1, "
+                    "mW cm^-2 nm^-1), else nm and W m^-2 nm^-1 are assumed and said",
+                    example="spectra/site.csv",
+                ),
+                "spectrum_column": Either(
+                    Int(2, 10_000),
+                    Str(min_len=1, max_len=200),
+                    default=None,
+                    doc="the irradiance column of spectrum_file: its 1-based number "
+                    "(1 = wavelength) or its header name; required when the file has more "
+                    "than two columns",
+                    example="global",
+                ),
+                "sun_temperature_K": Num(
+                    1000.0,
+                    20000.0,
+                    "K",
+                    default=6000.0,
+                    doc="blackbody sun temperature (spectrum = 'blackbody' only)",
+                ),
+                "irradiance_W_m2": Num(
+                    0.0,
+                    1e5,
+                    "W m^-2",
+                    low_open=True,
+                    default=None,
+                    doc="rescale the one-sun spectrum to this total before concentration",
+                    example=1000.0,
+                ),
+                "concentration": Num(
+                    0.0,
+                    MAX_CONCENTRATION,
+                    "suns",
+                    low_open=True,
+                    default=1.0,
+                    doc="optical concentration",
+                ),
+                "temperature_K": PerJunction(
+                    Num(*TEMPERATURE_RANGE_K, "K"),
+                    max_len=MAX_JUNCTIONS,
+                    default=300.0,
+                    doc="cell temperature: one value, or one per junction (top first; the "
+                    "length must equal the junction count of every stack of the study)",
+                    example=[300.0, 320.0],
+                ),
+                "ere": PerJunction(
+                    Num(*ERE_RANGE),
+                    max_len=MAX_JUNCTIONS,
+                    default=1.0,
+                    doc="external radiative efficiency (fraction; 1 = radiative limit): one "
+                    "value, or one per junction (top first, length as temperature_K)",
+                    example=[0.01, 0.001],
+                ),
+                "dark_current": Choice(
+                    DARK_MODELS,
+                    default="boltzmann",
+                    doc="form of the radiative dark current (bose-einstein: exact when qV "
+                    "nears the gap, e.g. at high concentration)",
+                ),
             },
             default=dict,
+            doc="Spectrum and cell conditions of every calculation",
         ),
         "map": Table(
             {
-                "x_range_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [0.5, 2.5]),
-                "y_range_eV": List(_GAP, min_len=2, max_len=2, default=None),
-                "step_eV": Num(0.0005, 1.0, "eV", default=0.01),
-                "stack_eV": List(_GAP, min_len=2, max_len=MAX_JUNCTIONS, default=None),
-                "axes": List(Int(1, MAX_JUNCTIONS), min_len=2, max_len=2, default=None),
-                "others": Choice(("fixed", "optimised"), default="fixed"),
-                "free_range_eV": List(_GAP, min_len=2, max_len=2, default=lambda: [0.3, 3.0]),
-                "tolerance_pct": Num(0.0, 100.0, "%", low_open=True, default=1.0),
+                "x_gap_range_eV": List(
+                    _GAP,
+                    min_len=2,
+                    max_len=2,
+                    default=lambda: [0.5, 2.5],
+                    doc="gap range [low, high] of the map's first axis (the upper junction "
+                    "of map.axes)",
+                ),
+                "y_gap_range_eV": List(
+                    _GAP,
+                    min_len=2,
+                    max_len=2,
+                    default=None,
+                    doc="gap range [low, high] of the second axis; default x_gap_range_eV",
+                    example=[0.7, 1.6],
+                ),
+                "step_eV": Num(0.0005, 1.0, "eV", default=0.01, doc="grid step of both axes"),
+                "stack_eV": List(
+                    _GAP,
+                    min_len=2,
+                    max_len=MAX_JUNCTIONS,
+                    default=None,
+                    doc="a stack of 3+ junctions (top first) of which the map varies two "
+                    "(map.axes); default: a two-junction map",
+                    example=[1.85, 1.3, 0.9],
+                ),
+                "axes": List(
+                    Int(1, MAX_JUNCTIONS),
+                    min_len=2,
+                    max_len=2,
+                    default=None,
+                    doc="the two junctions the map varies (1 = top); default [1, last]",
+                    example=[2, 3],
+                ),
+                "other_gaps": Choice(
+                    ("fixed", "optimised"),
+                    default="fixed",
+                    doc="the gaps of map.stack_eV not on an axis: held fixed, or optimised "
+                    "at every map point (within free_range_eV)",
+                ),
+                "free_range_eV": List(
+                    _GAP,
+                    min_len=2,
+                    max_len=2,
+                    default=lambda: [0.3, 3.0],
+                    doc="range [low, high] of the optimised other gaps",
+                ),
+                "tolerance_pct": Num(
+                    0.0,
+                    100.0,
+                    "%",
+                    low_open=True,
+                    default=1.0,
+                    doc="tolerance window: gaps within this many absolute % of the optimum",
+                ),
                 "connections": List(
                     Choice(CONNECTIONS),
                     min_len=1,
                     max_len=len(CONNECTIONS),
                     unique=True,
                     default=None,
+                    doc="connections mapped; default the study's, without voltage-matched "
+                    "(slow to map)",
+                    example=["series", "independent"],
                 ),
             },
             default=dict,
+            doc="The efficiency map over two junctions' gaps",
+            renamed={
+                "x_range_eV": "x_gap_range_eV",
+                "y_range_eV": "y_gap_range_eV",
+                "others": "other_gaps",
+            },
         ),
         "cut": Table(
             {
-                "bottom_gap_eV": Num(*GAP_RANGE_EV, "eV", default=1.12),
-                "step_eV": Num(0.0005, 1.0, "eV", default=0.005),
+                "bottom_gap_eV": Num(
+                    *GAP_RANGE_EV, "eV", default=1.12, doc="fixed bottom gap of the cut"
+                ),
+                "step_eV": Num(
+                    0.0005, 1.0, "eV", default=0.005, doc="step of the top gap along the cut"
+                ),
             },
             default=dict,
+            doc="Efficiency versus the top gap at a fixed bottom gap",
         ),
         "materials": Records(
             Table(
                 {
-                    "name": _NAME,
-                    "gap_eV": Num(*GAP_RANGE_EV, "eV", default=None),
-                    "gap_range_eV": List(_GAP, min_len=2, max_len=2, default=None),
-                    "role": Choice(("top", "bottom", "any"), default="any"),
-                    "note": Str(max_len=1000, default=""),
+                    "name": Str(
+                        min_len=1,
+                        max_len=120,
+                        doc="name (unique), used by search.materials",
+                        example="Our silicon bottom cell",
+                    ),
+                    "gap_eV": Num(
+                        *GAP_RANGE_EV,
+                        "eV",
+                        default=None,
+                        doc="a fixed gap (give this or gap_range_eV)",
+                        example=1.12,
+                    ),
+                    "gap_range_eV": List(
+                        _GAP,
+                        min_len=2,
+                        max_len=2,
+                        default=None,
+                        doc="a tunable window [low, high] (give this or gap_eV)",
+                        example=[1.62, 1.82],
+                    ),
+                    "role": Choice(
+                        ("top", "bottom", "any"),
+                        default="any",
+                        doc="where in a stack the material may go",
+                    ),
+                    "note": Str(max_len=1000, default="", doc="free text shown in the report"),
                 }
-            )
+            ),
+            doc="Candidate absorbers: a fixed gap or a tunable window each",
         ),
         "stacks": Records(
             Table(
                 {
-                    "name": _NAME,
-                    "gaps_eV": List(_GAP, min_len=1, max_len=MAX_JUNCTIONS),
-                    "note": Str(max_len=1000, default=""),
+                    "name": Str(
+                        min_len=1,
+                        max_len=120,
+                        doc="name (unique), shown on maps and in tables",
+                        example="candidate A",
+                    ),
+                    "gaps_eV": List(
+                        _GAP,
+                        min_len=1,
+                        max_len=MAX_JUNCTIONS,
+                        doc="band gaps, top first, strictly decreasing",
+                        example=[1.72, 1.12],
+                    ),
+                    "note": Str(max_len=1000, default="", doc="free text shown in the report"),
                 }
             ),
             max_len=50,
+            doc="Stacks of interest: marked on maps and evaluated in full",
         ),
         "site": SITE_TABLE,
     }
@@ -236,7 +474,9 @@ def register_table(name: str, table: Table) -> None:
     name : str
         Table name in the study file, e.g. ``"search"``.
     table : Table
-        Its schema; give it ``default=dict`` (or another default) to make it optional.
+        Its schema; give it ``default=dict`` (or another default) to make it optional,
+        and a ``doc`` on it and on every key (the study-file reference is written from
+        them).
     """
     if name in STUDY_SCHEMA.fields:
         raise ValueError(f"study table {name!r} already exists")
@@ -248,36 +488,70 @@ def register_table(name: str, table: Table) -> None:
 SEARCH_TABLE = Table(
     {
         "junctions": Int(2, MAX_JUNCTIONS, default=2, doc="junctions per stack"),
-        "connection": Choice(CONNECTIONS, default="series"),
+        "connection": Choice(
+            CONNECTIONS, default="series", doc="how the searched stack is connected"
+        ),
         "materials": List(
             Str(min_len=1, max_len=200),
             max_len=MAX_JUNCTIONS,
             default=list,
             doc="per junction, top first: a [[materials]] name or 'any'",
+            example=["any", "Our silicon bottom cell"],
         ),
         "bounds_eV": List(
-            Num(*GAP_RANGE_EV, "eV"), min_len=2, max_len=2, default=lambda: [0.5, 3.0]
+            Num(*GAP_RANGE_EV, "eV"),
+            min_len=2,
+            max_len=2,
+            default=lambda: [0.5, 3.0],
+            doc="gap window [low, high] of every 'any' junction",
         ),
-        "min_spacing_eV": Num(0.0, 1.0, "eV", default=0.05),
-        "min_mismatch_ratio": Num(0.0, 1.0, default=0.0, doc="0: no mismatch constraint"),
-        "trials": Int(0, 100_000, default=0, doc="0: the default trial count"),
-        "seed": Int(0, 2**31 - 1, default=0),
+        "min_spacing_eV": Num(
+            0.0, 1.0, "eV", default=0.05, doc="least difference between neighbouring gaps"
+        ),
+        "min_photocurrent_ratio": Num(
+            0.0,
+            1.0,
+            default=0.0,
+            doc="least ratio of the smallest to the largest sub-cell photocurrent "
+            "(fraction); 0: no constraint",
+        ),
+        "trials": Int(0, 100_000, default=0, doc="optuna trials; 0: the default trial count"),
+        "seed": Int(0, 2**31 - 1, default=0, doc="random seed (same seed, same answer)"),
     },
     default=dict,
+    doc="The band-gap search of the report's search section (gapmatch optimise --study)",
+    renamed={"min_mismatch_ratio": "min_photocurrent_ratio"},
 )
 
 #: ``[thickness]``: efficiency versus one absorber's thickness (report section)
 THICKNESS_TABLE = Table(
     {
-        "stack": Str(default="", doc="a stack of interest (default: the first)"),
-        "junction": Int(1, MAX_JUNCTIONS, default=1, doc="1 = top"),
-        "connection": Choice(CONNECTIONS, default="series"),
-        "absorber": Choice(("direct", "indirect"), default="direct"),
-        "light_trapping": Choice(("single", "double", "lambertian"), default="single"),
-        "range_nm": List(Num(1.0, 1e8, "nm"), min_len=2, max_len=2, default=lambda: [30.0, 3000.0]),
-        "points": Int(5, 200, default=40),
+        "stack": Str(default="", doc="a stack of interest by name (default: the first)"),
+        "junction": Int(
+            1, MAX_JUNCTIONS, default=1, doc="the junction whose thickness varies (1 = top)"
+        ),
+        "connection": Choice(CONNECTIONS, default="series", doc="connection of the stack"),
+        "absorber": Choice(
+            ("direct", "indirect"),
+            default="direct",
+            doc="absorption model of the finite absorber (Urbach-tailed edge)",
+        ),
+        "light_trapping": Choice(
+            ("single", "double", "lambertian"),
+            default="single",
+            doc="optical path: single pass, double pass (back mirror) or Lambertian",
+        ),
+        "range_nm": List(
+            Num(1.0, 1e8, "nm"),
+            min_len=2,
+            max_len=2,
+            default=lambda: [30.0, 3000.0],
+            doc="thickness range [low, high]",
+        ),
+        "points": Int(5, 200, default=40, doc="thicknesses computed (log-spaced)"),
     },
     default=dict,
+    doc="Efficiency versus one absorber's thickness (the report's thickness section)",
 )
 
 register_table("search", SEARCH_TABLE)
@@ -415,7 +689,7 @@ class Study:
         Keyword arguments for :func:`gapmatch.evaluate` (spectrum and conditions;
         ``spectrum_file`` resolved relative to the study file).
     map : dict
-        Map settings (see ``[map]``); ``y_range_eV`` filled in.
+        Map settings (the keys of ``[map]``); ``y_gap_range_eV`` and ``axes`` filled in.
     cut : dict
         One-dimensional cut settings.
     materials : list of Material
@@ -428,6 +702,12 @@ class Study:
         The study file.
     sha256 : str
         SHA-256 of the file's bytes (hex).
+    notices : list of str
+        Warnings about the file that did not stop it (old key names, each naming the
+        new key); also logged on the ``gapmatch.study`` logger.
+    spectrum_column : int, str or None
+        ``conditions.spectrum_column``: the irradiance column of the spectrum file (kept
+        out of ``conditions``; :attr:`illumination` reads the file with it).
     """
 
     name: str
@@ -446,6 +726,8 @@ class Study:
     site: Site | None = None
     path: Path | None = None
     sha256: str = ""
+    notices: list[str] = field(default_factory=list)
+    spectrum_column: int | str | None = None
 
     @property
     def n_junctions(self) -> int:
@@ -470,15 +752,15 @@ class Study:
         m = self.map
         kw = dict(
             connections=self.map_connections,
-            x_range_eV=tuple(m["x_range_eV"]),
-            y_range_eV=tuple(m["y_range_eV"]),
+            x_range_eV=tuple(m["x_gap_range_eV"]),
+            y_range_eV=tuple(m["y_gap_range_eV"]),
             step_eV=m["step_eV"],
         )
         if m["stack_eV"] is not None:
             kw.update(
                 stack_eV=m["stack_eV"],
                 axes=tuple(m["axes"]),
-                others=m["others"],
+                others=m["other_gaps"],
                 free_range_eV=tuple(m["free_range_eV"]),
             )
         return kw
@@ -493,6 +775,28 @@ class Study:
     def illumination(self) -> Illumination:
         """The study's illumination, built (and a spectrum file read) once."""
         c = self.conditions
+        if self.spectrum_column is not None:
+            # a chosen column of a file: the one-sun spectrum object carries the choice,
+            # so a re-evaluation rebuilds the illumination from it
+            from types import MappingProxyType
+
+            from .io.spectra import get_spectrum, read_spectrum_csv
+
+            one_sun = read_spectrum_csv(c["spectrum_file"], column=self.spectrum_column)
+            spec = get_spectrum(
+                spectrum_file=c["spectrum_file"],
+                spectrum_column=self.spectrum_column,
+                irradiance_W_m2=c["irradiance_W_m2"],
+                concentration=c["concentration"],
+            )
+            opts = {
+                "spectrum": one_sun,
+                "spectrum_file": None,
+                "sun_temperature_K": c["sun_temperature_K"],
+                "irradiance_W_m2": c["irradiance_W_m2"],
+                "concentration": c["concentration"],
+            }
+            return Illumination(spec, MappingProxyType(opts))
         return Illumination.from_options(
             c["spectrum"],
             spectrum_file=c["spectrum_file"],
@@ -501,6 +805,8 @@ class Study:
             concentration=c["concentration"],
         )
 
+
+_LOG = logging.getLogger("gapmatch.study")
 
 _POS_RE = re.compile(r"\(at line (\d+), column (\d+)\)")
 
@@ -536,7 +842,7 @@ def parse_study(
         (or, for TOML syntax errors, the line and column).
     """
     try:
-        data = tomllib.loads(text)
+        data = tomllib.loads(text.removeprefix("\ufeff"))
     except tomllib.TOMLDecodeError as exc:
         msg = str(exc)
         m = _POS_RE.search(msg)
@@ -545,8 +851,15 @@ def parse_study(
         raise InputError(source, f"TOML syntax error at {where}: {reason}") from None
     if "study" not in data:
         raise InputError("study", "is required: a [study] table with at least name and title")
-    v = STUDY_SCHEMA.check(data, "")
-    return _build(v, base_dir, raw_bytes if raw_bytes is not None else text.encode("utf-8"))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", RenamedKeyWarning)
+        v = STUDY_SCHEMA.check(data, "")
+    notices = [str(w.message) for w in caught if issubclass(w.category, RenamedKeyWarning)]
+    for n in notices:
+        _LOG.warning("gapmatch: warning: %s: %s", source, n)
+    st = _build(v, base_dir, raw_bytes if raw_bytes is not None else text.encode("utf-8"), data)
+    st.notices = notices
+    return st
 
 
 def load_study(path: str | Path) -> Study:
@@ -560,49 +873,48 @@ def load_study(path: str | Path) -> Study:
     Returns
     -------
     Study
+
+    Raises
+    ------
+    InputError
+        As :func:`parse_study`, the key path prefixed with the file name
+        (``demo.toml: map.step_eV``); a file that is not UTF-8 text (a byte-order mark
+        is allowed) gives one line naming the file and the first bad byte.
     """
     p = Path(path)
     if not p.is_file():
         raise InputError(str(p), "study file not found (give the path of a .toml file)")
     raw = p.read_bytes()
     try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError(str(p), "must be UTF-8 text") from None
-    st = parse_study(text, source=str(p), base_dir=p.parent, raw_bytes=raw)
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            str(p),
+            f"is not UTF-8 text (byte {exc.start + 1} is 0x{raw[exc.start]:02x}); save it as UTF-8",
+        ) from None
+    try:
+        st = parse_study(text, source=str(p), base_dir=p.parent, raw_bytes=raw)
+    except InputError as exc:
+        if exc.field.startswith(str(p)):
+            raise
+        raise InputError(f"{p}: {exc.field}", exc.problem, exc.value) from None
     st.path = p
     return st
 
 
-def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
+def _build(v: dict, base_dir: Path | None, raw: bytes, data: dict | None = None) -> Study:
     s = v["study"]
-    cond = dict(v["conditions"])
-    if cond["spectrum_file"] is not None:
-        f = Path(cond["spectrum_file"])
-        if not f.is_absolute() and base_dir is not None:
-            f = base_dir / f
-        if not f.is_file():
-            raise InputError(
-                "conditions.spectrum_file",
-                "file not found (paths are relative to the study file)",
-                cond["spectrum_file"],
-            )
-        cond["spectrum_file"] = str(f)
-    if cond["spectrum"] != "blackbody" and cond["sun_temperature_K"] != 6000.0:
-        raise InputError(
-            "conditions.sun_temperature_K",
-            "applies to spectrum 'blackbody' only",
-            cond["sun_temperature_K"],
-        )
+    cond = _conditions(v["conditions"], base_dir, data or {})
+    column = cond.pop("spectrum_column")
 
     m = dict(v["map"])
-    if m["y_range_eV"] is None:
-        m["y_range_eV"] = list(m["x_range_eV"])
-    for key in ("x_range_eV", "y_range_eV", "free_range_eV"):
+    if m["y_gap_range_eV"] is None:
+        m["y_gap_range_eV"] = list(m["x_gap_range_eV"])
+    for key in ("x_gap_range_eV", "y_gap_range_eV", "free_range_eV"):
         lo, hi = m[key]
         if hi <= lo:
             raise InputError(f"map.{key}", "needs the first gap below the last one [eV]", m[key])
-    for key in ("x_range_eV", "y_range_eV"):
+    for key in ("x_gap_range_eV", "y_gap_range_eV"):
         lo, hi = m[key]
         if (hi - lo) / m["step_eV"] < 1 - 1e-9:
             raise InputError(
@@ -610,8 +922,8 @@ def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
                 f"must be at most the width of map.{key} ({hi - lo:g} eV)",
                 m["step_eV"],
             )
-    npts = ((m["x_range_eV"][1] - m["x_range_eV"][0]) / m["step_eV"] + 1) * (
-        (m["y_range_eV"][1] - m["y_range_eV"][0]) / m["step_eV"] + 1
+    npts = ((m["x_gap_range_eV"][1] - m["x_gap_range_eV"][0]) / m["step_eV"] + 1) * (
+        (m["y_gap_range_eV"][1] - m["y_gap_range_eV"][0]) / m["step_eV"] + 1
     )
     if npts > MAX_MAP_POINTS * 1.0001:
         raise InputError(
@@ -686,7 +998,14 @@ def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
 
     site = _site(v["site"], base_dir) if v["site"] is not None else None
     extra = {k: v[k] for k in EXTRA_TABLES if k in v}
-    return Study(
+    given = set(data or {})
+    search = v.get("search")
+    if search is not None:
+        _check_search(search, mats)
+    if v.get("thickness") is not None:
+        _check_thickness(v["thickness"], stacks, "thickness" in given)
+    _check_per_junction(cond, m, stacks, search if "search" in given else None)
+    study = Study(
         name=s["name"],
         title=s["title"],
         author=s["author"],
@@ -702,7 +1021,215 @@ def _build(v: dict, base_dir: Path | None, raw: bytes) -> Study:
         extra=extra,
         site=site,
         sha256=hashlib.sha256(raw).hexdigest(),
+        spectrum_column=column,
     )
+    if cond["spectrum_file"] is not None:
+        # read (and validate) the spectrum file now, before anything is computed
+        try:
+            study.illumination  # noqa: B018 - cached: read once
+        except InputError as exc:
+            given_file = (data or {}).get("conditions", {}).get("spectrum_file")
+            raise InputError(
+                f"conditions.spectrum_file ({given_file})",
+                exc.problem if exc.field.startswith("spectrum file") else str(exc),
+                exc.value,
+            ) from None
+    if search is not None and search["min_photocurrent_ratio"] > 0:
+        _check_ratio_feasible(study, search, mats)
+    return study
+
+
+def _conditions(c: dict, base_dir: Path | None, data: dict) -> dict:
+    """``[conditions]`` checked as a whole: ``spectrum`` names the light, and
+    ``spectrum_file`` belongs to ``spectrum = "file"`` (implied when only the file is
+    given)."""
+    cond = dict(c)
+    raw = data.get("conditions") if isinstance(data.get("conditions"), dict) else {}
+    if cond["spectrum_file"] is not None:
+        if "spectrum" not in raw:
+            cond["spectrum"] = "file"
+        elif cond["spectrum"] != "file":
+            raise InputError(
+                "conditions.spectrum_file",
+                f"applies to spectrum = 'file' only, but spectrum is '{cond['spectrum']}' "
+                "(remove one of the two)",
+                cond["spectrum_file"],
+            )
+        f = Path(cond["spectrum_file"])
+        if not f.is_absolute() and base_dir is not None:
+            f = base_dir / f
+        if not f.is_file():
+            raise InputError(
+                "conditions.spectrum_file",
+                "file not found (paths are relative to the study file)",
+                cond["spectrum_file"],
+            )
+        cond["spectrum_file"] = str(f)
+    elif cond["spectrum"] == "file":
+        raise InputError(
+            "conditions.spectrum_file",
+            "is required with spectrum = 'file': the path of a CSV spectrum",
+        )
+    if cond["spectrum_file"] is None and cond["spectrum_column"] is not None:
+        raise InputError(
+            "conditions.spectrum_column",
+            "applies to a spectrum_file only",
+            cond["spectrum_column"],
+        )
+    if cond["spectrum"] != "blackbody" and cond["sun_temperature_K"] != 6000.0:
+        raise InputError(
+            "conditions.sun_temperature_K",
+            "applies to spectrum 'blackbody' only",
+            cond["sun_temperature_K"],
+        )
+    return cond
+
+
+def _check_per_junction(cond: dict, m: dict, stacks: list, search: dict | None) -> None:
+    """Per-junction ``ere`` and ``temperature_K`` must fit every stack they apply to."""
+    uses = [("the map (map.stack_eV, or 2 junctions without it)", len(m["stack_eV"] or (0, 0)))]
+    uses += [(f"stacks[{i}].gaps_eV", len(st.gaps_eV)) for i, st in enumerate(stacks, start=1)]
+    if search is not None:
+        uses.append(("search.junctions", search["junctions"]))
+    for key in ("ere", "temperature_K"):
+        val = cond[key]
+        if not isinstance(val, list):
+            continue
+        for what, n in uses:
+            if n != len(val):
+                raise InputError(
+                    f"conditions.{key}",
+                    f"has {len(val)} entries (one per junction), but {what} has {n} "
+                    "junctions; give one value for all junctions, or use stacks of one "
+                    "junction count",
+                    val,
+                )
+
+
+def _did_you_mean(word: str, options) -> str:
+    import difflib
+
+    close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
+    return f"; did you mean '{close[0]}'?" if close else ""
+
+
+def _check_search(cfg: dict, mats: list) -> None:
+    """``[search]`` checked completely, before anything runs."""
+    n = cfg["junctions"]
+    lo, hi = cfg["bounds_eV"]
+    if not lo < hi:
+        raise InputError("search.bounds_eV", "must be [low, high] with low < high [eV]", [lo, hi])
+    names = cfg["materials"]
+    if names and len(names) != n:
+        raise InputError(
+            "search.materials",
+            f"needs one entry per junction ({n}; search.junctions), top first; has {len(names)}",
+            names,
+        )
+    known = {mt.name: mt for mt in mats}
+    for k, name in enumerate(names, start=1):
+        if name != "any" and name not in known:
+            listed = ", ".join(["'any'", *(f"'{x}'" for x in known)])
+            raise InputError(
+                f"search.materials[{k}]",
+                f"must be 'any' or a [[materials]] name"
+                f"{_did_you_mean(name, ['any', *known])} (allowed: {listed})",
+                name,
+            )
+    if names:
+        spacing = cfg["min_spacing_eV"]
+        windows = [
+            (lo, hi) if x == "any" else (known[x].gap_range_eV or (known[x].gap_eV,) * 2)
+            for x in names
+        ]
+        # top first: each gap must lie min_spacing_eV above the next one down
+        for k in range(n - 1):
+            if windows[k][1] < windows[k + 1][0] + spacing - 1e-12:
+                raise InputError(
+                    f"search.materials[{k + 1}]",
+                    f"gap window {windows[k][0]:g}-{windows[k][1]:g} eV cannot lie "
+                    f"{spacing:g} eV (search.min_spacing_eV) above junction {k + 2}'s "
+                    f"{windows[k + 1][0]:g}-{windows[k + 1][1]:g} eV (junctions top first)",
+                    names[k],
+                )
+
+
+def _check_thickness(cfg: dict, stacks: list, given: bool) -> None:
+    """``[thickness]`` checked completely, before anything runs."""
+    lo, hi = cfg["range_nm"]
+    if not lo < hi:
+        raise InputError("thickness.range_nm", "must be [low, high] with low < high [nm]", [lo, hi])
+    if not given:
+        return
+    names = [st.name for st in stacks]
+    if cfg["stack"]:
+        if cfg["stack"] not in names:
+            listed = ", ".join(f"'{x}'" for x in names) or "none: add [[stacks]]"
+            raise InputError(
+                "thickness.stack",
+                f"names no [[stacks]] entry{_did_you_mean(cfg['stack'], names)} (stacks: {listed})",
+                cfg["stack"],
+            )
+        stack = stacks[names.index(cfg["stack"])]
+    elif stacks:
+        stack = stacks[0]
+    else:
+        raise InputError("thickness", "needs a [[stacks]] entry to vary (none given)")
+    n = len(stack.gaps_eV)
+    if cfg["junction"] > n:
+        raise InputError(
+            "thickness.junction",
+            f"must be a junction of stack '{stack.name}' (1 to {n}, 1 = top)",
+            cfg["junction"],
+        )
+
+
+def _check_ratio_feasible(study: Study, cfg: dict, mats: list) -> None:
+    """Refuse a photocurrent-ratio limit no stack of the search windows reaches.
+
+    The ratio ``min(J_ph) / max(J_ph)`` of ideal step absorbers (each junction absorbs
+    the photons between its gap and the gap above) is sampled on a grid of the windows
+    (4096 points at most); the limit is infeasible when it exceeds the best sampled
+    ratio by more than 0.02 (the grid's resolution margin: neighbouring grid points of
+    the coarsest grid, 4 per axis for 6 junctions, differ by less than that in ratio
+    near current matching, a property of the grid spacing, not a physical constant).
+    """
+    import numpy as np
+
+    from .units import EV
+
+    n = cfg["junctions"]
+    lo, hi = cfg["bounds_eV"]
+    known = {mt.name: mt for mt in mats}
+    names = cfg["materials"] or ["any"] * n
+    axes = []
+    per_axis = max(4, int(round(4096 ** (1.0 / n))))
+    for x in names:
+        mt = known.get(x)
+        if mt is not None and not mt.is_tunable:
+            axes.append(np.array([mt.gap_eV]))
+        else:
+            a, b = mt.gap_range_eV if mt is not None else (lo, hi)
+            axes.append(np.linspace(a, b, per_axis))
+    grid = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, n)
+    spacing = cfg["min_spacing_eV"]
+    ok = np.all(grid[:, :-1] - grid[:, 1:] >= spacing - 1e-9, axis=1)
+    grid = grid[ok]
+    if grid.size == 0:
+        return  # the spacing check above names that problem
+    spec = study.illumination.spectrum
+    above = spec.photon_flux_above(grid * EV)  # (M, N), top first
+    jph = above - np.concatenate([np.zeros((len(grid), 1)), above[:, :-1]], axis=1)
+    best = float(np.max(jph.min(axis=1) / np.maximum(jph.max(axis=1), 1e-300)))
+    limit = cfg["min_photocurrent_ratio"]
+    if limit > best + 0.02:
+        raise InputError(
+            "search.min_photocurrent_ratio",
+            f"is infeasible: no stack within the search windows reaches a photocurrent "
+            f"ratio of {limit:g} (the best of {len(grid)} sampled stacks reaches "
+            f"{best:.3f}); lower the limit or widen the windows",
+            limit,
+        )
 
 
 def _site(sd: dict, base_dir: Path | None) -> Site:

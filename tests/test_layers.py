@@ -44,6 +44,7 @@ LAYERS = {
     "roadmap": 4,
     "materials": 4,
     "study": 4,
+    "study_reference": 4,  # the key reference of study and roadmap files
     # reporting, then the command line
     "report": 5,
     "cli": 6,

@@ -142,8 +142,8 @@ title = "Title with <b>tags</b> & more"
 author = "{evil}"
 sections = ["map", "materials", "stacks", "cut", "spectrum", "jv"]
 [map]
-x_range_eV = [1.2, 2.2]
-y_range_eV = [0.8, 1.4]
+x_gap_range_eV = [1.2, 2.2]
+y_gap_range_eV = [0.8, 1.4]
 step_eV = 0.05
 [[materials]]
 name = "{evil}"
@@ -179,8 +179,8 @@ name = "extra"
 title = "x"
 sections = ["test-extra"]
 [map]
-x_range_eV = [1.4, 1.8]
-y_range_eV = [0.8, 1.1]
+x_gap_range_eV = [1.4, 1.8]
+y_gap_range_eV = [0.8, 1.1]
 step_eV = 0.05
 """
         rep = build_report(parse_study(text), progress=False)
@@ -201,9 +201,9 @@ sections = ["map", "tolerance", "cut", "assumptions"]
 [map]
 stack_eV = [1.9, 1.37, 0.93]
 axes = [1, 2]
-others = "optimised"
-x_range_eV = [1.7, 2.1]
-y_range_eV = [1.2, 1.5]
+other_gaps = "optimised"
+x_gap_range_eV = [1.7, 2.1]
+y_gap_range_eV = [1.2, 1.5]
 step_eV = 0.05
 [cut]
 bottom_gap_eV = 0.93

@@ -57,7 +57,10 @@ def test_study_search_finds_the_silicon_partner():
     "search, match",
     [
         ('materials = ["nope", "bottom-si"]\n', r"search.materials\[1\]: must be 'any' or a"),
-        ('materials = ["any"]\n', r"search.materials: needs one entry per junction \(2\)"),
+        (
+            'materials = ["any"]\n',
+            r"search.materials: needs one entry per junction \(2; search.junctions\)",
+        ),
         ("bounds_eV = [2.0, 1.0]\n", r"search.bounds_eV: must be \[low, high\] with low < high"),
         ("junctions = 9\n", r"search.junctions: out of range"),
         ("trails = 5\n", r"search.trails: unknown key; did you mean 'trials'\?"),

@@ -37,7 +37,7 @@ def test_demo_study_is_valid():
     assert st.cut["bottom_gap_eV"] == 1.12
     assert any(m.is_tunable for m in st.materials) and any(not m.is_tunable for m in st.materials)
     assert all(s.gaps_eV[-1] == 1.12 for s in st.stacks)
-    assert st.map["y_range_eV"] == [0.5, 2.5] and st.map["axes"] == [1, 2]
+    assert st.map["y_gap_range_eV"] == [0.5, 2.5] and st.map["axes"] == [1, 2]
 
 
 def test_defaults_fill_in():
@@ -128,13 +128,13 @@ def test_stack_gaps_must_descend():
 
 
 def test_reversed_range():
-    e = err(MINIMAL + "[map]\nx_range_eV = [2.0, 1.0]\n")
-    assert e.field == "map.x_range_eV" and "first gap below the last" in str(e)
+    e = err(MINIMAL + "[map]\nx_gap_range_eV = [2.0, 1.0]\n")
+    assert e.field == "map.x_gap_range_eV" and "first gap below the last" in str(e)
 
 
 def test_array_length():
-    e = err(MINIMAL + "[map]\nx_range_eV = [1.0]\n")
-    assert e.field == "map.x_range_eV" and "2 entries" in str(e)
+    e = err(MINIMAL + "[map]\nx_gap_range_eV = [1.0]\n")
+    assert e.field == "map.x_gap_range_eV" and "2 entries" in str(e)
 
 
 def test_too_many_points():
@@ -166,10 +166,10 @@ _KEYS = [
     ("conditions", "spectrum"),
     ("conditions", "concentration"),
     ("map", "step_eV"),
-    ("map", "x_range_eV"),
+    ("map", "x_gap_range_eV"),
     ("map", "stack_eV"),
     ("map", "axes"),
-    ("map", "others"),
+    ("map", "other_gaps"),
     ("cut", "bottom_gap_eV"),
     ("study", "sections"),
     ("study", "connections"),

@@ -18,7 +18,8 @@ COMMANDS: dict[str, str] = {
     "roadmap": "rank candidate stacks at each milestone of a material roadmap study",
     "materials": "list the materials library with the source of every number",
     "init": "write a commented starting study file from a template",
+    "study-keys": "print every table and key of study files (type, unit, default, range)",
 }
 
 #: sub-commands whose module has another name (``yield`` is a Python keyword)
-MODULES: dict[str, str] = {"yield": "energy"}
+MODULES: dict[str, str] = {"yield": "energy", "study-keys": "study_keys"}

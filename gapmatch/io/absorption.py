@@ -32,7 +32,11 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
     Returns
     -------
     TabulatedAbsorption
-        Energies [J] ascending, absorption coefficient [m^-1].
+        Energies [J] ascending, absorption coefficient [m^-1]. Its ``source`` states
+        the extension used outside the table: above the highest tabulated photon
+        energy (below the shortest wavelength) alpha keeps its last value; below the
+        lowest it is 0, so a table must reach each junction's gap (a table that does
+        not is refused when the junction is built, naming the file).
 
     Raises
     ------
@@ -46,4 +50,9 @@ def read_alpha_csv(path: str | Path) -> TabulatedAbsorption:
     t = read_unit_table(p, f"absorption file {p}", "absorption coefficient")
     energy = (H * C / (t.wavelength_nm * 1e-9))[::-1]
     alpha = (t.values * 100.0)[::-1]  # cm^-1 -> m^-1
-    return TabulatedAbsorption(energy, alpha, source=f"{p} ({t.describe()})")
+    lo_nm, hi_nm = float(t.wavelength_nm[0]), float(t.wavelength_nm[-1])
+    extension = (
+        f"alpha held at its {lo_nm:g} nm value ({float(t.values[0]):.4g} cm^-1) at shorter "
+        f"wavelengths; 0 beyond {hi_nm:g} nm"
+    )
+    return TabulatedAbsorption(energy, alpha, source=f"{p} ({t.describe()}; {extension})")

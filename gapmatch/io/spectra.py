@@ -90,7 +90,7 @@ def standard_spectrum(name: str) -> TabulatedSpectrum:
 
 
 def _canonical(name: str) -> str:
-    for k in SPECTRUM_CHOICES:
+    for k in (*SPECTRUM_CHOICES, "file"):
         if str(name).strip().lower() == k.lower():
             return k
     return str(name)
@@ -204,7 +204,8 @@ def get_spectrum(
     Parameters
     ----------
     spectrum : str or Spectrum
-        ``"AM1.5G"``, ``"AM1.5D"``, ``"AM0"``, ``"blackbody"``, or a Spectrum object.
+        ``"AM1.5G"``, ``"AM1.5D"``, ``"AM0"``, ``"blackbody"``, ``"file"`` (then
+        ``spectrum_file`` is required), or a Spectrum object.
     spectrum_file : str or pathlib.Path, optional
         CSV file (see :func:`read_spectrum_csv`); overrides ``spectrum``.
     sun_temperature_K : float
@@ -221,6 +222,8 @@ def get_spectrum(
     -------
     Spectrum
     """
+    if spectrum_file is None and isinstance(spectrum, str) and _canonical(spectrum) == "file":
+        raise InputError("spectrum_file", "is required with spectrum 'file' (a CSV spectrum)")
     if spectrum_file is not None:
         spec: Spectrum = read_spectrum_csv(spectrum_file, column=spectrum_column)
         if irradiance_W_m2 is None:

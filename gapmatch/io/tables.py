@@ -160,18 +160,32 @@ def _echo(row: list[str]) -> str:
     return text if len(text) <= _ECHO else text[: _ECHO - 3] + "..."
 
 
+#: a cell that looks like a mistyped number (shown in messages); anything else is not
+#: shown, so that pointing the reader at the wrong file never echoes that file's text
+_NUMBERISH = re.compile(r"[0-9eE+\-._, xX]{1,24}|[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
+
+
+def _shown(cells: list[str]) -> str | None:
+    """The cells for a message if they look like (mistyped) numbers, else None."""
+    cells = [c.strip() for c in cells]
+    return ",".join(cells) if all(_NUMBERISH.fullmatch(c) or not c for c in cells) else None
+
+
 def _pick_column(header: list[str] | None, ncols: int, column, field: str, value_name: str):
     """0-based index of the value column and its label."""
     names = [h.strip() for h in header] if header else []
     if column is None:
         if ncols > 2:
             listed = ", ".join(
-                f"{k + 1}={names[k]!r}" if k < len(names) else str(k + 1) for k in range(ncols)
-            )
+                f"{k + 1}={names[k]!r}" if k < len(names) and len(names[k]) <= 30 else str(k + 1)
+                for k in range(min(ncols, 8))
+            ) + (", ..." if ncols > 8 else "")
             raise InputError(
                 field,
                 f"has {ncols} columns ({listed}); choose the {value_name} column by its "
-                "header name or 1-based number",
+                "header name or 1-based number (the second column is not taken silently: "
+                "in the usual ASTM G173 column order it is the extraterrestrial spectrum, "
+                "not the global one)",
             )
         k = 1
     elif isinstance(column, int | np.integer) and not isinstance(column, bool):
@@ -263,7 +277,7 @@ def read_unit_table(
                             field,
                             f"row {lineno}: needs two columns, wavelength [nm] and "
                             f"{quantity} [{default_unit}]",
-                            _echo(row),
+                            _shown(row),
                         )
                     k_col, label = _pick_column(header, ncols, column, field, quantity)
                 if len(row) <= k_col:
@@ -271,17 +285,25 @@ def read_unit_table(
                         field,
                         f"row {lineno}: needs {k_col + 1} columns, wavelength [nm] and "
                         f"{quantity} [{default_unit}]",
-                        _echo(row),
+                        _shown(row),
                     )
                 try:
                     a, b = parse_number(row[0]), parse_number(row[k_col])
                 except ValueError:
+                    shown = _shown([row[0], row[k_col]])
+                    what = "" if shown is not None else " (text, not shown: is this a table?)"
                     raise InputError(
-                        field, f"row {lineno}: not a number", _echo([row[0], row[k_col]])
+                        field,
+                        f"row {lineno}: not a number{what}; numbers are plain decimal or "
+                        "scientific notation (no '_', ',' or hexadecimal)",
+                        shown,
                     ) from None
                 if not (math.isfinite(a) and math.isfinite(b)):
                     raise InputError(
-                        field, f"row {lineno}: values must be finite", _echo([row[0], row[k_col]])
+                        field,
+                        f"row {lineno}: values must be finite numbers (no inf, nan or "
+                        "values beyond 1.8e308)",
+                        _echo([row[0], row[k_col]]),
                     )
                 if a <= 0:
                     raise InputError(field, f"row {lineno}: wavelength must be > 0 nm", a)

@@ -99,7 +99,7 @@ class ReportContext:
             n = self.study.n_junctions
             base = list(m["stack_eV"]) if m["stack_eV"] is not None else [2.0, 1.0]
             base[n - 1] = self.study.cut["bottom_gap_eV"]
-            lo, hi = m["x_range_eV"] if m["axes"][0] == 1 else (0.5, 2.5)
+            lo, hi = m["x_gap_range_eV"] if m["axes"][0] == 1 else (0.5, 2.5)
             step = self.study.cut["step_eV"]
             # only top gaps above every other gap (physical order)
             lo = max(lo, round(max(base[1:]) + step, 9))

@@ -63,6 +63,7 @@ from __future__ import annotations
 import re
 import tomllib
 from dataclasses import dataclass, field
+from functools import cache
 from pathlib import Path
 from typing import Any
 
@@ -71,6 +72,8 @@ import numpy as np
 from ..errors import InputError
 from ..materials import STUDY_STATUS, MaterialLibrary, Source, load_library
 from ..materials import checks as ck
+from ..materials.library import STATUSES
+from ..schema import Choice, Field, Int, List, Num, Records, Str, Table
 
 __all__ = [
     "Uncertain",
@@ -80,29 +83,276 @@ __all__ = [
     "load_roadmap",
     "parse_roadmap",
     "UNCERTAIN_PARAMETERS",
+    "roadmap_schema",
 ]
 
 CONNECTIONS = ("series", "independent", "voltage-matched")
-SPECTRA = ("AM1.5G", "AM1.5D", "AM0", "blackbody")
+SPECTRA = ("AM1.5G", "AM1.5D", "AM0", "blackbody", "file")
 #: projected parameters that may be uncertain
 UNCERTAIN_PARAMETERS = ("ere", "thickness_nm")
-_PROJECTION_KEYS = (
-    "material",
-    "year",
-    "years",
-    "ere",
-    "thickness_nm",
-    "collection_efficiency",
-    "series_resistance_ohm_cm2",
-    "gap_window_eV",
-    "source",
-)
 _RANGES = {
     "ere": (1e-12, 1.0, "", False),
     "thickness_nm": (1.0, 1e8, "nm", False),
     "collection_efficiency": (0.0, 1.0, "", True),
     "series_resistance_ohm_cm2": (0.0, 100.0, "ohm cm^2", False),
 }
+
+
+def _uncertain_doc(name: str, doc: str, example) -> Field:
+    lo, hi, unit, low_open = _RANGES[name]
+    return Num(lo, hi, unit, low_open=low_open, default=None, doc=doc, example=example)
+
+
+def _keys(*path: str) -> tuple[str, ...]:
+    """The allowed keys of a table of the roadmap schema (``_keys("roadmap")``)."""
+    node: Any = _roadmap_schema()
+    for name in path:
+        node = node.fields[name]
+    return tuple(node.fields)
+
+
+@cache
+def _roadmap_schema() -> Table:
+    """The keys of a roadmap study in the schema language, for the key reference and
+    the parser's lists of allowed keys (the parser checks the values itself, with the
+    same ranges: ``tests/test_study_keys.py`` tries each documented bound)."""
+    from ..study import SITE_TABLE
+
+    site = dict(SITE_TABLE.fields)
+    site["representatives"] = Int(
+        4,
+        96,
+        default=24,
+        doc="weighted representative spectra of the year used for every evaluation",
+    )
+    return Table(
+        {
+            "roadmap": Table(
+                {
+                    "name": Str(
+                        min_len=1,
+                        max_len=80,
+                        pattern_doc="letters, digits, '.', '_' and '-'; it names the output files",
+                        doc="short name of the roadmap study",
+                        example="my-roadmap",
+                    ),
+                    "title": Str(max_len=500, default="", doc="title; default the name"),
+                    "organisation": Str(max_len=500, default="", doc="who the study is for"),
+                    "description": Str(max_len=5000, default="", doc="the question, in words"),
+                    "milestones": List(
+                        Int(1900, 2200),
+                        min_len=1,
+                        max_len=12,
+                        doc="milestone years, increasing",
+                        example=[2027, 2030, 2035],
+                    ),
+                    "draws": Int(1, 100_000, default=2000, doc="Monte Carlo draws per milestone"),
+                    "seed": Int(
+                        0, 2**32 - 1, default=0, doc="random seed (same seed, same answer)"
+                    ),
+                },
+                doc="What the roadmap study is: its name and milestones",
+            ),
+            "conditions": Table(
+                {
+                    "spectrum": Choice(
+                        SPECTRA,
+                        default="AM1.5G",
+                        doc="the incident light: an ASTM G173-03 table, a blackbody sun or "
+                        "'file' (spectrum_file; implied when only the file is given)",
+                    ),
+                    "spectrum_file": Str(
+                        min_len=1,
+                        max_len=1000,
+                        default=None,
+                        doc="CSV spectrum, relative to the study file (spectrum = 'file')",
+                        example="spectra/site.csv",
+                    ),
+                    "concentration": Num(
+                        0.0, 46200.0, "suns", low_open=True, default=1.0, doc="concentration"
+                    ),
+                    "irradiance_W_m2": Num(
+                        0.0,
+                        1e7,
+                        "W m^-2",
+                        low_open=True,
+                        default=None,
+                        doc="rescale the spectrum to this total",
+                        example=1000.0,
+                    ),
+                    "temperature_K": Num(
+                        100.0,
+                        1000.0,
+                        "K",
+                        default=300.0,
+                        doc="cell temperature; library gaps are shifted to it",
+                    ),
+                },
+                default=dict,
+                doc="Spectrum and cell temperature (excludes [site])",
+            ),
+            "site": Table(
+                site,
+                default=None,
+                doc="Rank candidates by modelled annual energy at a site (the keys of a "
+                "study's [site], plus representatives; excludes [conditions])",
+            ),
+            "search": Table(
+                {
+                    "samples": Int(16, 65536, default=256, doc="Sobol points of the gap search"),
+                    "starts": Int(1, 16, default=3, doc="polished basins"),
+                    "min_spacing_eV": Num(
+                        0.0, 1.0, "eV", default=0.05, doc="least difference of neighbouring gaps"
+                    ),
+                },
+                default=dict,
+                doc="The gap design of each candidate at each milestone",
+            ),
+            "sources": Table(
+                {
+                    "<key>": Table(
+                        {
+                            "citation": Str(doc="where the numbers come from, in full"),
+                            "status": Choice(
+                                (*STATUSES, STUDY_STATUS),
+                                doc="how well the source is known",
+                            ),
+                            "where": Str(default="", doc="page, table or figure"),
+                            "note": Str(default="", doc="free text"),
+                        },
+                        default=None,
+                        doc="One source, named <key>",
+                    )
+                },
+                default=None,
+                doc="The study's own sources, usable by [materials.<key>] overrides",
+            ),
+            "materials": Table(
+                {
+                    "<key>": Table(
+                        {
+                            "base": Str(
+                                default=None, doc="library material to start from", example="Si"
+                            ),
+                            "name": Str(default=None, doc="display name (required without base)"),
+                            "family": Str(default=None, doc="material family"),
+                            "absorber": Table(
+                                {}, default=None, doc="absorber model table (library format)"
+                            ),
+                            "gap": Table({}, default=None, doc="gap model table (library format)"),
+                            "temperature": Table(
+                                {}, default=None, doc="gap temperature model (library format)"
+                            ),
+                            "thickness_nm": Num(
+                                1.0, 1e8, "nm", default=None, doc="absorber thickness"
+                            ),
+                            "light_trapping": Choice(
+                                ("single", "double", "lambertian"),
+                                default=None,
+                                doc="light trapping",
+                            ),
+                            "refractive_index": Num(
+                                1.0, 10.0, default=None, doc="refractive index of the absorber"
+                            ),
+                            "ere": Num(1e-12, 1.0, default=None, doc="typical ERE (fraction)"),
+                            "note": Str(default="", doc="free text"),
+                            "source": Str(default=None, doc="a [sources] key for plain numbers"),
+                        },
+                        default=None,
+                        doc="Override fields of a library material (base = '<library key>', "
+                        "or a library key as the table name) or add a material; nested "
+                        "tables in the format of gapmatch/materials/library.toml "
+                        "(`gapmatch materials` lists it); plain numbers carry the status "
+                        "'study assumption'",
+                    )
+                },
+                default=None,
+                doc="Materials added to or changed from the library",
+            ),
+            "candidates": Records(
+                Table(
+                    {
+                        "name": Str(
+                            min_len=1, max_len=120, doc="name (unique)", example="2T pk/Si"
+                        ),
+                        "materials": List(
+                            Str(),
+                            min_len=1,
+                            max_len=6,
+                            doc="library or study material keys, top first",
+                            example=["perovskite-wide", "Si"],
+                        ),
+                        "connection": Choice(
+                            CONNECTIONS, default="series", doc="how the sub-cells are connected"
+                        ),
+                        "cells_per_string": List(
+                            Int(1, 100),
+                            min_len=1,
+                            max_len=6,
+                            default=None,
+                            doc="voltage-matched only: cells per string, one per junction "
+                            "(required for 3+ junctions)",
+                            example=[2, 3],
+                        ),
+                        "note": Str(max_len=2000, default="", doc="free text"),
+                    }
+                ),
+                max_len=50,
+                doc="Candidate stacks (1 to 50)",
+            ),
+            "projections": Records(
+                Table(
+                    {
+                        "material": Str(doc="a library or study material key", example="Si"),
+                        "year": Int(1900, 2200, default=None, doc="one milestone (or years)"),
+                        "years": List(
+                            Int(1900, 2200),
+                            min_len=1,
+                            max_len=12,
+                            default=None,
+                            doc="several milestones (or year)",
+                            example=[2027, 2030],
+                        ),
+                        "ere": _uncertain_doc(
+                            "ere",
+                            "external radiative efficiency: a number or {low, likely, high} "
+                            "(triangular) or {low, high} (uniform), sampled in log10",
+                            1e-3,
+                        ),
+                        "thickness_nm": _uncertain_doc(
+                            "thickness_nm",
+                            "absorber thickness: a number or an uncertainty as ere (without "
+                            "it the junction is an ideal step absorber)",
+                            700.0,
+                        ),
+                        "collection_efficiency": _uncertain_doc(
+                            "collection_efficiency", "collected fraction, a number only", 0.97
+                        ),
+                        "series_resistance_ohm_cm2": _uncertain_doc(
+                            "series_resistance_ohm_cm2",
+                            "this sub-cell's series resistance share, a number only",
+                            0.5,
+                        ),
+                        "gap_window_eV": List(
+                            Num(0.1, 5.0, "eV"),
+                            min_len=2,
+                            max_len=2,
+                            default=None,
+                            doc="[low, high] gap window of a tunable material",
+                            example=[1.62, 1.85],
+                        ),
+                        "source": Str(
+                            max_len=2000,
+                            default="study assumption",
+                            doc="where the projection comes from",
+                        ),
+                    }
+                ),
+                max_len=10000,
+                doc="Projected parameters of a material at milestones",
+            ),
+        }
+    )
 
 
 @dataclass(frozen=True)
@@ -271,11 +521,7 @@ def _uncertain(value: Any, path: str, name: str) -> Uncertain:
 
 
 def _conditions(tbl: dict, path: str, base_dir=None) -> dict:
-    ck.check_keys(
-        tbl,
-        ("spectrum", "spectrum_file", "concentration", "irradiance_W_m2", "temperature_K"),
-        path,
-    )
+    ck.check_keys(tbl, _keys("conditions"), path)
     out: dict[str, Any] = {}
     if "spectrum" in tbl:
         out["spectrum"] = ck.choice(tbl["spectrum"], f"{path}.spectrum", SPECTRA)
@@ -290,6 +536,18 @@ def _conditions(tbl: dict, path: str, base_dir=None) -> dict:
                 tbl["spectrum_file"],
             )
         out["spectrum_file"] = str(f)
+        if out.setdefault("spectrum", "file") != "file":
+            raise InputError(
+                f"{path}.spectrum_file",
+                f"applies to spectrum = 'file' only, but spectrum is '{out['spectrum']}' "
+                "(remove one of the two)",
+                tbl["spectrum_file"],
+            )
+    elif out.get("spectrum") == "file":
+        raise InputError(
+            f"{path}.spectrum_file",
+            "is required with spectrum = 'file': the path of a CSV spectrum",
+        )
     if "concentration" in tbl:
         out["concentration"] = ck.number(
             tbl["concentration"], f"{path}.concentration", 0.0, 46200.0, "suns", low_open=True
@@ -305,7 +563,7 @@ def _conditions(tbl: dict, path: str, base_dir=None) -> dict:
 
 
 def _search(tbl: dict, path: str) -> dict:
-    ck.check_keys(tbl, ("samples", "starts", "min_spacing_eV"), path)
+    ck.check_keys(tbl, _keys("search"), path)
     return {
         "samples": ck.integer(tbl.get("samples", 256), f"{path}.samples", 16, 65536),
         "starts": ck.integer(tbl.get("starts", 3), f"{path}.starts", 1, 16),
@@ -320,7 +578,7 @@ def _candidates(items: list, lib: MaterialLibrary) -> tuple[Candidate, ...]:
     for i, c in enumerate(ck.array(items, "candidates", 1, 50)):
         p = f"candidates[{i + 1}]"
         ck.table(c, p)
-        ck.check_keys(c, ("name", "materials", "connection", "cells_per_string", "note"), p)
+        ck.check_keys(c, _keys("candidates"), p)
         name = ck.string(ck.need(c, "name", p), f"{p}.name", 120)
         if name in names:
             raise InputError(f"{p}.name", "repeats the name of an earlier candidate", name)
@@ -358,7 +616,7 @@ def _projections(items: list, lib: MaterialLibrary, years: tuple[int, ...], used
     for i, pr in enumerate(ck.array(items, "projections", 0, 10000)):
         p = f"projections[{i + 1}]"
         ck.table(pr, p)
-        ck.check_keys(pr, _PROJECTION_KEYS, p)
+        ck.check_keys(pr, _keys("projections"), p)
         mat = ck.need(pr, "material", p)
         if not isinstance(mat, str) or mat not in lib:
             raise InputError(
@@ -465,20 +723,7 @@ def parse_roadmap(
             "is missing: this looks like a report study (gapmatch report); a roadmap study "
             "has a [roadmap] table with milestones",
         )
-    ck.check_keys(
-        doc,
-        (
-            "roadmap",
-            "conditions",
-            "site",
-            "search",
-            "sources",
-            "materials",
-            "candidates",
-            "projections",
-        ),
-        "",
-    )
+    ck.check_keys(doc, _keys(), "")
     site, representatives = None, 24
     if "site" in doc:
         from ..study import parse_site
@@ -493,11 +738,7 @@ def parse_roadmap(
         representatives = ck.integer(raw.pop("representatives", 24), "site.representatives", 4, 96)
         site = parse_site(raw, base_dir)
     rm = ck.table(ck.need(doc, "roadmap", ""), "roadmap")
-    ck.check_keys(
-        rm,
-        ("name", "title", "organisation", "description", "milestones", "draws", "seed"),
-        "roadmap",
-    )
+    ck.check_keys(rm, _keys("roadmap"), "roadmap")
     name = ck.need(rm, "name", "roadmap")
     if not isinstance(name, str) or not _SLUG.fullmatch(name):
         raise InputError(
@@ -588,3 +829,9 @@ def load_roadmap(path: str | Path, library: MaterialLibrary | None = None) -> Ro
         if exc.field.startswith(str(p)):
             raise
         raise InputError(f"{p}: {exc.field}", exc.problem, exc.value) from None
+
+
+def roadmap_schema() -> Table:
+    """The keys of a roadmap study (schema-language nodes with docs, units, defaults
+    and ranges), for the key reference (``gapmatch study-keys``)."""
+    return _roadmap_schema()

@@ -10,7 +10,7 @@
     materials = ["any", "Our silicon bottom cell"]
     bounds_eV = [1.3, 2.3]
     min_spacing_eV = 0.05
-    min_mismatch_ratio = 0.0      # 0: no current-mismatch constraint
+    min_photocurrent_ratio = 0.0  # least min/max sub-cell photocurrent; 0: no constraint
     trials = 0                    # 0: the default trial count
     seed = 0
 
@@ -79,12 +79,17 @@ def problem_from_study(study: Study) -> SearchProblem:
             bounds.append((lo, hi))
             fixed[k] = m.gap_eV
     conditions = dict(study.conditions)
+    if study.spectrum_column is not None:
+        # a chosen column of a spectrum file: search under the study's spectrum itself
+        for k in ("spectrum_file", "sun_temperature_K", "irradiance_W_m2", "concentration"):
+            conditions.pop(k, None)
+        conditions["spectrum"] = study.illumination.spectrum
     return make_problem(
         n,
         cfg["connection"],
         bounds_eV=bounds,
         fixed_eV=fixed or None,
         min_spacing_eV=cfg["min_spacing_eV"],
-        min_mismatch_ratio=cfg["min_mismatch_ratio"] or None,
+        min_mismatch_ratio=cfg["min_photocurrent_ratio"] or None,
         **conditions,
     )
