@@ -334,6 +334,12 @@ def thickness_kwargs(args: argparse.Namespace, n: int) -> dict:
     windows = _thickness_windows(getattr(args, "thickness_window", None) or [], n)
     if windows:
         kw["thickness_windows_nm"] = windows
+    if kw and getattr(args, "weather", None):
+        raise InputError(
+            "--thickness-window" if windows else "--absorber",
+            "finite absorbers and thickness windows apply to the AM1.5G-type efficiency "
+            "search; the annual-energy search (--weather) takes step absorbers only",
+        )
     return kw
 
 
