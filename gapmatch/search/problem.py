@@ -113,11 +113,11 @@ class Objective(ABC):
     and implement :meth:`evaluate`; a slow objective declares
     :attr:`cost_per_stack_s`. An energy-yield objective would integrate the
     stack's power over a year of spectra and temperatures in :meth:`evaluate`; the rest
-    of the search does not change. Extra design variables (for example absorber
-    thicknesses [m]) are reserved: :attr:`extra_variables` (``name -> (low, high)``)
-    and the ``extra`` argument of :meth:`evaluate` are the interface they will use, but
-    the search does not vary them yet and :func:`make_problem` rejects an objective that
-    declares any.
+    of the search does not change. Extra design variables use :attr:`extra_variables`
+    (``name -> (low, high)``) and the ``extra`` argument of :meth:`evaluate`: the
+    efficiency objective declares its searched absorber thicknesses [m] there (built by
+    :func:`make_problem` from ``thickness_windows_nm``); :func:`make_problem` rejects a
+    custom objective that declares any.
     """
 
     name: str = "objective"

@@ -17,6 +17,11 @@
    stored once as trials tagged ``stage = "polish"``. Distinct polished optima are the
    alternatives.
 
+With thickness windows (``thickness_windows_nm``) the thick-absorber optimum (every
+searched thickness at its window's upper end, gaps re-optimised; :func:`thick_reference`)
+is computed first and polished as one more start, so the thinned optimum is never below
+it; both are in the result.
+
 References
 ----------
 .. [1] T. Akiba et al., "Optuna: a next-generation hyperparameter optimization
@@ -55,6 +60,8 @@ __all__ = [
     "default_study_name",
     "run_settings",
     "shell_join",
+    "thick_reference",
+    "thickness_list_nm",
 ]
 
 _global_sample_count = global_samples  # optimise()'s argument shadows the name
