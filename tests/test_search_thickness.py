@@ -335,3 +335,48 @@ def test_study_problem_and_report(tmp_path):
     csv = (tmp_path / "thin_search_thickness.csv").read_text().splitlines()
     assert csv[0].startswith("optimum,gap_1_eV,gap_2_eV,thickness_1_nm")
     assert len(csv) == 3
+
+
+def test_tabulated_absorber_from_a_study_file(tmp_path):
+    # An absorption table written from the direct model (alpha0 = 5e4 cm^-1, the
+    # default) and named in the study (relative path) gives the thinned optimum of the
+    # direct model. Tolerance: linear interpolation between 0.5 nm rows near the
+    # square-root edge changes the absorbed photocurrent by up to 2e-3 relative
+    # (tests/test_absorption.py), so efficiency and thickness agree to 3e-3.
+    import scipy.constants as sc
+
+    from gapmatch.core.absorption import DirectGapAbsorption
+
+    gap_J = LOW_TOP_EV * sc.e
+    wl = np.arange(300.0, 1200.0, 0.5)
+    e = sc.h * sc.c / (wl * 1e-9)
+    alpha_cm = DirectGapAbsorption(5e6, 0.0).alpha(e, gap_J) / 100.0
+    (tmp_path / "data").mkdir()
+    (tmp_path / "data" / "alpha.csv").write_text(
+        "wavelength_nm,alpha_per_cm\n"
+        + "\n".join(f"{a},{b}" for a, b in zip(wl, alpha_cm, strict=True))
+    )
+    text = STUDY.replace('absorber = ["direct", "step"]', 'absorber = ["table", "step"]')
+    text += 'alpha_file = "data/alpha.csv"\nthickness_windows_nm = {top = [50, 5000]}\n'
+    study_file = tmp_path / "thin.toml"
+    study_file.write_text(text)
+    from gapmatch.study import load_study
+
+    p = problem_from_study(load_study(study_file))
+    assert p.conditions["alpha_file"] == str(tmp_path / "data" / "alpha.csv")
+    tab = _run(p)
+    direct = _run(
+        make_problem(
+            2,
+            "series",
+            fixed_eV={1: LOW_TOP_EV, 2: SI_EV},
+            absorber=["direct", "step"],
+            thickness_windows_nm={1: (50, 5000)},
+        )
+    )
+    assert tab.best_value == pytest.approx(direct.best_value, rel=3e-3)
+    assert tab.best_thickness_nm[0] == pytest.approx(direct.best_thickness_nm[0], rel=3e-3)
+    missing = text.replace("data/alpha.csv", "data/none.csv")
+    study_file.write_text(missing)
+    with pytest.raises(gm.InputError, match="search.alpha_file: file not found"):
+        problem_from_study(load_study(study_file))
