@@ -500,7 +500,11 @@ def thickness_list_nm(problem: SearchProblem, thickness_m) -> list[float | None]
     """Every junction's thickness [nm], top first, with the searched ones from
     ``thickness_m`` ``(K,)`` [m] (``None`` for step junctions)."""
     cond = problem.evaluate_conditions(np.asarray(thickness_m, dtype=float))
-    return list(cond["thickness_nm"])
+    n = problem.n_junctions
+    models = cond.get("absorber") or "step"
+    models = [models] * n if isinstance(models, str) else list(models)
+    models = models * n if len(models) == 1 else models
+    return [None if m == "step" else t for m, t in zip(models, cond["thickness_nm"], strict=True)]
 
 
 def thick_reference(problem: SearchProblem, *, seed: int = 0) -> dict:
