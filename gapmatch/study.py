@@ -48,6 +48,7 @@ from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
 
+from .core.absorption import ABSORBER_MODELS, LIGHT_TRAPPING
 from .core.diodes import DARK_MODELS
 from .core.registry import CONNECTIONS
 from .core.spectra import MAX_CONCENTRATION
@@ -517,6 +518,81 @@ SEARCH_TABLE = Table(
         ),
         "trials": Int(0, 100_000, default=0, doc="optuna trials; 0: the default trial count"),
         "seed": Int(0, 2**31 - 1, default=0, doc="random seed (same seed, same answer)"),
+        # finite absorbers and searched thicknesses (gapmatch.search.study_table)
+        "thickness_windows_nm": Table(
+            {
+                key: List(
+                    Num(1.0, 1e8, "nm"),
+                    min_len=2,
+                    max_len=2,
+                    default=None,
+                    doc=f"thickness window [low, high] of the {name} [nm], low < high",
+                )
+                for key, name in [
+                    ("top", "top junction"),
+                    ("bottom", "bottom junction"),
+                    *[(str(j), f"junction {j} (1 = top)") for j in range(1, MAX_JUNCTIONS + 1)],
+                ]
+            },
+            default=dict,
+            doc="search absorber thicknesses with the gaps, on a log scale: one window "
+            "[nm] per thinned junction, keyed 'top', 'bottom' or the junction number "
+            "(1 = top), e.g. {top = [100, 2000]}; every such junction needs a finite "
+            "search.absorber. Thinning the top cell of a two-terminal stack shares "
+            "current with the cells below (Bremner et al., Solar Energy 135, 750 "
+            "(2016)); the report compares the thinned optimum with the thick-absorber "
+            "one (each window's upper end)",
+        ),
+        "absorber": List(
+            Choice((*ABSORBER_MODELS, "alpha-file")),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="absorptance model, one for every junction or one per junction, top "
+            "first: 'step' (ideal, thickness ignored), 'direct', 'indirect' or 'alpha-file' "
+            "(search.alpha_file; 'table' is accepted too); empty: step everywhere",
+        ),
+        "thickness_nm": List(
+            Num(1.0, 1e8, "nm"),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="fixed absorber thickness [nm] of the finite junctions without a "
+            "thickness window, one for all or one per junction (ignored for step "
+            "junctions and windowed ones)",
+        ),
+        "alpha0_per_cm": List(
+            Num(1.0, 1e7, "cm^-1"),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="absorption coefficient 1 eV above the gap [cm^-1], one for all or one "
+            "per junction; empty: 5e4 direct, 4.5e3 indirect",
+        ),
+        "urbach_energy_meV": List(
+            Num(0.0, 100.0, "meV"),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="Urbach energy of the sub-gap tail [meV], one for all or one per "
+            "junction; empty: no tail",
+        ),
+        "light_trapping": List(
+            Choice(LIGHT_TRAPPING),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="'single' pass, 'double' pass (ideal rear mirror) or 'lambertian' "
+            "(4 n^2 path), one for all or one per junction; empty: single",
+        ),
+        "refractive_index": List(
+            Num(1.0, 6.0),
+            max_len=MAX_JUNCTIONS,
+            default=list,
+            doc="absorber refractive index (Lambertian trapping), one for all or one "
+            "per junction; empty: 3.5",
+        ),
+        "alpha_file": Str(
+            max_len=1000,
+            default="",
+            doc="CSV of wavelength [nm] and absorption coefficient [cm^-1] for the "
+            "'alpha-file' junctions, relative to the study file",
+        ),
     },
     default=dict,
     doc="The band-gap search of the report's search section (gapmatch optimise --study)",

@@ -62,7 +62,9 @@ def test_plotlyjs_embedded_once_and_size(demo):
     assert page.count(head) == 1
     rest = page.replace(get_plotlyjs(), "")
     assert not re.search(r"<(script|link|img)[^>]+(src|href)=", rest)  # fully offline
-    assert (out / f"{NAME}.html").stat().st_size < 10e6  # the project's page-size target: under 10 MB
+    assert (
+        out / f"{NAME}.html"
+    ).stat().st_size < 10e6  # the project's page-size target: under 10 MB
 
 
 def test_every_section_and_figure(demo):

@@ -22,6 +22,14 @@ SAMPLER_TYPE, SAMPLER_NAMES = names(SAMPLERS)
 #: what a study file sets: these options cannot be combined with --study
 STUDY_SETS = (
     "--junctions",
+    "--thickness-window",
+    "--absorber",
+    "--thickness",
+    "--alpha0",
+    "--urbach-energy",
+    "--light-trapping",
+    "--refractive-index",
+    "--alpha-file",
     "--connection",
     "--cells-per-string",
     "--bounds",
@@ -171,6 +179,7 @@ def register(sub) -> None:
     s.add_argument("--csv", metavar="PATH", help="write every trial to this CSV file")
     s.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_condition_options(p)
+    add_thickness_options(p)
     add_site_arguments(p)  # --weather etc.: annual-energy objective (gapmatch.cli.energy)
     p.add_argument(
         "--json",
@@ -276,6 +285,7 @@ def _problem_from_args(args: argparse.Namespace):
         min_spacing_eV=args.min_spacing,
         min_mismatch_ratio=args.min_photocurrent_ratio,
         robustness_eV=args.robustness,
+        **thickness_kwargs(args, n),
         **cond,
     )
     return problem, None, 0
@@ -293,6 +303,178 @@ def _check_before_search(args: argparse.Namespace) -> None:
         raise InputError("--trials", "must be a whole number of at least 1", args.trials)
     if args.csv:
         check_writable(args.csv, "--csv")
+
+
+# ---- finite absorbers and searched thicknesses (--thickness-window) ---------------------
+def add_thickness_options(p: argparse.ArgumentParser) -> None:
+    """Finite absorbers, and absorber thicknesses searched with the gaps."""
+    from .evaluate import ABSORBER_NAMES, ABSORBER_TYPE, TRAPPING_NAMES, TRAPPING_TYPE
+
+    g = p.add_argument_group(
+        "finite absorbers and thickness windows (one value for every junction or one per "
+        "junction, top first; a model projection, not an ideal ceiling)"
+    )
+    g.add_argument(
+        "--thickness-window",
+        nargs=3,
+        action="append",
+        default=[],
+        metavar=("J", "LOW_NM", "HIGH_NM"),
+        help="search junction J's absorber thickness (J = 1 for the top, 'top' or "
+        "'bottom') between LOW and HIGH [nm], 1 to 1e8, on a log scale, jointly with the "
+        "gaps; repeatable; needs a finite --absorber for J. E.g. --thickness-window top "
+        "100 2000 thins the top cell to share current in a two-terminal stack; the "
+        "thick-absorber optimum (HIGH) is reported beside it",
+    )
+    g.add_argument(
+        "--absorber",
+        nargs="+",
+        type=ABSORBER_TYPE,
+        choices=ABSORBER_NAMES,
+        metavar="MODEL",
+        help="absorptance model: step (default, ideal), direct, indirect or alpha-file "
+        "(--alpha-file; 'table' is accepted too)",
+    )
+    g.add_argument(
+        "--thickness",
+        type=float,
+        nargs="+",
+        metavar="NM",
+        help="fixed absorber thickness [nm], 1 to 1e8, of finite junctions without "
+        "a --thickness-window (ignored for step and windowed junctions)",
+    )
+    g.add_argument(
+        "--alpha0",
+        type=float,
+        nargs="+",
+        metavar="PER_CM",
+        help="absorption coefficient 1 eV above the gap [cm^-1], 1 to 1e7 "
+        "(default 5e4 direct, 4.5e3 indirect)",
+    )
+    g.add_argument(
+        "--urbach-energy",
+        type=float,
+        nargs="+",
+        metavar="MEV",
+        help="Urbach energy of the sub-gap tail [meV], 0 to 100 (default 0: none)",
+    )
+    g.add_argument(
+        "--light-trapping",
+        nargs="+",
+        type=TRAPPING_TYPE,
+        choices=TRAPPING_NAMES,
+        metavar="MODE",
+        help="single pass (default), double pass (ideal rear mirror) or lambertian "
+        "(4 n^2 path enhancement)",
+    )
+    g.add_argument(
+        "--refractive-index",
+        type=float,
+        nargs="+",
+        metavar="N",
+        help="absorber refractive index, 1 to 6 (default 3.5; Lambertian trapping)",
+    )
+    g.add_argument(
+        "--alpha-file",
+        metavar="PATH",
+        help="CSV of wavelength [nm] and absorption coefficient [cm^-1] for every "
+        "alpha-file junction",
+    )
+
+
+def _thickness_windows(items: list[list[str]], n: int) -> dict[int, tuple[float, float]]:
+    out: dict[int, tuple[float, float]] = {}
+    for j_s, lo_s, hi_s in items:
+        key = j_s.strip().lower()
+        j = n if key == "bottom" else 1 if key == "top" else None
+        if j is None:
+            try:
+                j = int(key)
+            except ValueError:
+                raise InputError(
+                    "--thickness-window",
+                    "junction must be a number (1 = top), 'top' or 'bottom'",
+                    j_s,
+                ) from None
+        if not 1 <= j <= n:
+            raise InputError("--thickness-window", f"junction numbers run from 1 (top) to {n}", j_s)
+        if j in out:
+            raise InputError("--thickness-window", f"gives junction {j} twice", j_s)
+        try:
+            lo, hi = float(lo_s), float(hi_s)
+        except ValueError:
+            raise InputError(
+                "--thickness-window", "needs J LOW_NM HIGH_NM, e.g. top 100 2000", [lo_s, hi_s]
+            ) from None
+        out[j] = (lo, hi)
+    return out
+
+
+def thickness_kwargs(args: argparse.Namespace, n: int) -> dict:
+    """:func:`gapmatch.search.make_problem` keywords of :func:`add_thickness_options`."""
+    kw: dict = {}
+    for opt, key in (
+        ("absorber", "absorber"),
+        ("thickness", "thickness_nm"),
+        ("alpha0", "alpha0_per_cm"),
+        ("urbach_energy", "urbach_energy_meV"),
+        ("light_trapping", "light_trapping"),
+        ("refractive_index", "refractive_index"),
+        ("alpha_file", "alpha_file"),
+    ):
+        v = getattr(args, opt, None)
+        if v is not None:
+            kw[key] = v[0] if isinstance(v, list) and len(v) == 1 else v
+    windows = _thickness_windows(getattr(args, "thickness_window", None) or [], n)
+    if windows:
+        kw["thickness_windows_nm"] = windows
+    if kw and getattr(args, "weather", None):
+        raise InputError(
+            "--thickness-window" if windows else "--absorber",
+            "finite absorbers and thickness windows apply to the AM1.5G-type efficiency "
+            "search; the annual-energy search (--weather) takes step absorbers only",
+        )
+    return kw
+
+
+def format_thickness(res) -> str:
+    """The thinned optimum beside the thick-absorber one (text; units in the headers)."""
+    ref = res.thick_reference
+    name = res.problem.objective.name
+    rows = [
+        (
+            "thinned",
+            res.best["gaps_eV"],
+            res.best_thickness_nm,
+            res.best["efficiency"],
+            [j["jsc_mA_cm2"] for j in res.best["junctions"]],
+        ),
+        ("thick", ref["gaps_eV"], ref["thickness_nm"], ref[name], ref["jsc_mA_cm2"]),
+    ]
+    wins = ", ".join(
+        f"junction {j}: {lo:g}-{hi:g} nm"
+        for j, (lo, hi) in res.problem.thickness_windows_nm().items()
+    )
+    lines = [
+        "",
+        f"Thickness search ({wins}); thick = every window at its upper end:",
+        f"{'optimum':<8} {'gaps [eV]':<22} {'thickness [nm]':<26} {'efficiency [%]':>14}  "
+        "Jsc per junction [mA cm^-2]",
+    ]
+    for label, gaps, th, eff, jsc in rows:
+        ts = " / ".join("-" if t is None else f"{t:.4g}" for t in th)
+        lines.append(
+            f"{label:<8} {' / '.join(f'{g:.4f}' for g in gaps):<22} {ts:<26} "
+            f"{100 * eff:14.3f}  {' / '.join(f'{j:.2f}' for j in jsc)}"
+        )
+    lines.append(
+        "Model projection with finite absorbers (the absorber models and their "
+        "parameters), not an ideal detailed-balance ceiling."
+    )
+    return "\n".join(lines)
+
+
+# -------------------------------------------------------------------------------------------
 
 
 def run(args: argparse.Namespace) -> int:
@@ -345,6 +527,8 @@ def run(args: argparse.Namespace) -> int:
         )
         return 0
     print(format_summary(res, output_notes(args) if not args.study else []))
+    if res.thick_reference is not None:
+        print(format_thickness(res))
     return 0
 
 

@@ -13,9 +13,11 @@ from .costs import constraint_costs, quick_optimum
 from .global_stage import distinct, global_samples, sobol_candidates
 from .polish import PolishResult, polish
 from .problem import (
+    ABSORBER_CONDITIONS,
     DEFAULT_MIN_SPACING_EV,
     DEFAULT_ROBUSTNESS_EV,
     DEFAULT_WINDOW_EV,
+    THICKNESS_RANGE_NM,
     EfficiencyObjective,
     Evaluation,
     Objective,
@@ -24,16 +26,24 @@ from .problem import (
     make_problem,
 )
 from .result import SearchResult, pareto_mask, trials_frame
-from .runner import SearchInterrupted, default_study_name, default_trials, optimise
+from .runner import (
+    SearchInterrupted,
+    default_study_name,
+    default_trials,
+    optimise,
+    thick_reference,
+)
 from .samplers import SAMPLERS
 from .storage import DEFAULT_STORAGE, storage_url
 
 __all__ = [
+    "ABSORBER_CONDITIONS",
     "DEFAULT_MIN_SPACING_EV",
     "DEFAULT_ROBUSTNESS_EV",
     "DEFAULT_STORAGE",
     "DEFAULT_WINDOW_EV",
     "SAMPLERS",
+    "THICKNESS_RANGE_NM",
     "EfficiencyObjective",
     "Evaluation",
     "Objective",
@@ -54,5 +64,6 @@ __all__ = [
     "quick_optimum",
     "sobol_candidates",
     "storage_url",
+    "thick_reference",
     "trials_frame",
 ]

@@ -11,9 +11,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .global_stage import distinct, global_samples, sobol_candidates
+from .global_stage import distinct, global_samples, is_slow, sobol_candidates
 from .polish import polish
-from .problem import DEFAULT_WINDOW_EV, SearchProblem, make_problem
+from .problem import DEFAULT_WINDOW_EV, EfficiencyObjective, SearchProblem, make_problem
 
 __all__ = ["quick_optimum", "constraint_costs"]
 
@@ -29,6 +29,9 @@ def quick_optimum(
     """Global optimum without optuna or storage: Sobol batch, then polish of the best
     distinct basins.
 
+    With finite absorbers (a slow objective) at most 3 starts are polished, by pattern
+    search only (as in :func:`gapmatch.search.optimise`).
+
     Returns
     -------
     (numpy.ndarray, float)
@@ -38,6 +41,10 @@ def quick_optimum(
     x, v = sobol_candidates(problem, n, seed)
     if len(x) == 0:
         return np.full(problem.n_junctions, np.nan), float("nan")
+    if getattr(problem.objective, "finite", False) and is_slow(problem):
+        res = polish(problem, x[distinct(x, v, min(starts, 3))], seed=seed, nelder_mead=0)
+        best = max(res, key=lambda r: r.value)
+        return best.gaps_eV, float(best.value)
     res = polish(problem, x[distinct(x, v, starts)], seed=seed)
     best = max(res, key=lambda r: r.value)
     return best.gaps_eV, float(best.value)
@@ -56,6 +63,10 @@ def _rebuild(problem: SearchProblem, **changes) -> SearchProblem:
         robustness_eV=None,
         objective=problem.objective,
     )
+    if problem.n_thick and isinstance(problem.objective, EfficiencyObjective):
+        # the thickness variables come back with the default objective of the conditions
+        kw["objective"] = None
+        kw["thickness_windows_nm"] = problem.thickness_windows_nm()
     kw.update(changes)
     return make_problem(problem.n_junctions, problem.connection, **kw, **problem.conditions)
 
@@ -66,6 +77,7 @@ def constraint_costs(
     best_value: float,
     *,  # noqa: N803
     seed: int = 0,
+    best_thickness_m=None,
 ) -> list[dict]:
     """The efficiency with and without each constraint of a problem.
 
@@ -79,6 +91,9 @@ def constraint_costs(
         Its objective (fraction).
     seed : int
         Seed of the relaxed searches.
+    best_thickness_m : array_like, optional
+        The optimum's searched thicknesses [m] (thickness windows; default each
+        window's upper end).
 
     Returns
     -------
@@ -140,7 +155,7 @@ def constraint_costs(
             _rebuild(problem, min_spacing_eV=0.0),
         )
     if problem.min_mismatch_ratio is not None:
-        ev = problem.evaluate(g[None], robust=False)
+        ev = problem.evaluate(g[None], robust=False, thickness_m=best_thickness_m)
         add(
             f"mismatch ratio >= {problem.min_mismatch_ratio:g}",
             ev.mismatch_ratio[0] - problem.min_mismatch_ratio < ACTIVE_RATIO,

@@ -41,15 +41,16 @@ GLOBAL_BUDGET_S = 4.0
 
 
 def global_samples(problem: SearchProblem) -> int:
-    """Sobol sample size: 2^13 (one free gap) to 2^18 (four or more), reduced to fit
-    :data:`GLOBAL_BUDGET_S` at the objective's declared cost per stack
+    """Sobol sample size: 2^13 (one search variable) to 2^18 (four or more), reduced to
+    fit :data:`GLOBAL_BUDGET_S` at the objective's declared cost per stack
     (:attr:`~gapmatch.search.problem.Objective.cost_per_stack_s`, e.g. Bose-Einstein
-    dark current), never below 2^9.
+    dark current or finite absorbers), never below 2^9. Searched thicknesses count as
+    variables.
 
     The size depends on the problem only, never on a clock, so one seed gives one
     answer on any machine and under any load.
     """
-    k = problem.n_free
+    k = problem.n_vars
     n = 2 ** min(18, 11 + 2 * k - (k > 3) * (k - 3))
     per = float(problem.objective.cost_per_stack_s)
     if per * 2 * n > GLOBAL_BUDGET_S:  # two sets of n points are evaluated
@@ -65,31 +66,35 @@ def is_slow(problem: SearchProblem) -> bool:
 def sobol_candidates(problem: SearchProblem, n: int, seed: int) -> tuple[np.ndarray, np.ndarray]:
     """Feasible Sobol candidates and their main objective, best first.
 
-    Half the points are sorted into decreasing order (uniform over the ordered region
-    when the windows coincide), half are used as drawn; points outside the windows or
-    violating a constraint are dropped (this stage is not stored).
+    Half the points have their gaps sorted into decreasing order (uniform over the
+    ordered region when the windows coincide), half are used as drawn; points outside
+    the windows or violating a constraint are dropped (this stage is not stored).
+    Searched thicknesses are drawn uniformly in ``log10`` of the thickness.
 
     Returns
     -------
     (numpy.ndarray, numpy.ndarray)
-        Free gaps [eV] ``(M, k)`` and objective values ``(M,)``.
+        Search variables ``(M, n_vars)`` (free gaps [eV], then ``log10`` thicknesses
+        [m]) and objective values ``(M,)``.
     """
-    k = problem.n_free
-    lo, hi = problem.bounds_eV[problem.free, 0], problem.bounds_eV[problem.free, 1]
+    k, kg = problem.n_vars, problem.n_free
+    lo, hi = problem.var_bounds[:, 0], problem.var_bounds[:, 1]
     from scipy.stats import qmc
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         u = qmc.Sobol(d=k, scramble=True, seed=seed).random(n)
     raw = lo + u * (hi - lo)
-    ulo, uhi = lo.min(), hi.max()
-    s = -np.sort(-(ulo + u * (uhi - ulo)), axis=1)
+    s = raw.copy()
+    if kg:
+        ulo, uhi = lo[:kg].min(), hi[:kg].max()
+        s[:, :kg] = -np.sort(-(ulo + u[:, :kg] * (uhi - ulo)), axis=1)
     x = np.vstack([s, raw])
     inwin = np.all((x >= lo) & (x <= hi), axis=1)
     x = x[inwin]
     if len(x) == 0:
         return np.empty((0, k)), np.empty(0)
-    ev = problem.evaluate(problem.full_gaps(x), robust=False)
+    ev = problem.evaluate_vars(x, robust=False)
     ok = ev.feasible
     x, v = x[ok], ev.value[ok]
     order = np.argsort(-v)
@@ -97,8 +102,9 @@ def sobol_candidates(problem: SearchProblem, n: int, seed: int) -> tuple[np.ndar
 
 
 def distinct(x: np.ndarray, values: np.ndarray, count: int, sep: float = DISTINCT_EV) -> np.ndarray:
-    """Indices of up to ``count`` points, best first, each at least ``sep`` [eV] from the
-    others in some coordinate (greedy by value)."""
+    """Indices of up to ``count`` points, best first, each at least ``sep`` from the
+    others in some coordinate (greedy by value): [eV] for gaps, decades for ``log10``
+    thicknesses (0.05 = 12 %)."""
     order = np.argsort(-np.asarray(values))
     keep: list[int] = []
     for i in order:

@@ -16,6 +16,9 @@ methods only:
 Infeasible points (outside a window, too closely spaced, or beyond the mismatch limit)
 score below every feasible one, so a polish started from a feasible point stays feasible.
 
+Searched thicknesses are polished as ``log10`` of the thickness [m], with the same steps
+(0.02 decades = 4.7 % down to 1e-5 decades).
+
 References
 ----------
 .. [1] V. Torczon, "On the convergence of pattern search algorithms", SIAM J. Optim. 7, 1
@@ -49,7 +52,7 @@ class PolishResult:
     Attributes
     ----------
     x_eV : numpy.ndarray
-        Free gaps [eV].
+        Search variables: free gaps [eV], then ``log10`` of searched thicknesses [m].
     gaps_eV : numpy.ndarray
         All gaps [eV], top first.
     value : float
@@ -68,16 +71,17 @@ class PolishResult:
     start_value: float
     local_max_check_passed: bool
     evaluations: int
+    thickness_m: np.ndarray | None = None
 
 
 def penalised(problem: SearchProblem, x: np.ndarray, which: int = 0) -> np.ndarray:
-    """Objective ``which`` (0 main, 1 robust) of ``(M, k)`` free gaps; infeasible points
-    get ``-1 - violation`` (below any feasible efficiency)."""
+    """Objective ``which`` (0 main, 1 robust) of ``(M, k)`` search variables; infeasible
+    points get ``-1 - violation`` (below any feasible efficiency)."""
     x = np.atleast_2d(x)
-    lo, hi = problem.bounds_eV[problem.free, 0], problem.bounds_eV[problem.free, 1]
+    lo, hi = problem.var_bounds[:, 0], problem.var_bounds[:, 1]
     out_win = np.maximum(lo - x, 0).max(axis=1) + np.maximum(x - hi, 0).max(axis=1)
     xs = np.clip(x, lo, hi)
-    ev = problem.evaluate(problem.full_gaps(xs), robust=which == 1)
+    ev = problem.evaluate_vars(xs, robust=which == 1)
     val = ev.value if which == 0 else ev.robust
     viol = np.maximum(ev.constraints, 0).sum(axis=1) + out_win
     return np.where(viol > 0, -1.0 - viol, val)
@@ -154,14 +158,15 @@ def polish(
     nelder_mead: int | None = None,
     h0: float = 0.02,
 ) -> list[PolishResult]:
-    """Polish starting points (free gaps [eV], ``(K, k)``) to local maxima.
+    """Polish starting points (search variables, ``(K, k)``) to local maxima.
 
     Parameters
     ----------
     problem : SearchProblem
         The problem (objective, windows, constraints).
     starts_eV : numpy.ndarray
-        Feasible starting points: free gaps [eV], one row per start.
+        Feasible starting points, one row per start: free gaps [eV], then ``log10`` of
+        the searched thicknesses [m] (:attr:`SearchProblem.var_bounds`).
     which : {0, 1}
         Polish the main objective (0) or the robustness objective (1).
     seed : int
@@ -199,5 +204,9 @@ def polish(
                 break
             xs, fs, c2 = _pattern(problem, xb[None, :], which, rng, 1e-3, 1e-6)
             x, fx, ne = xs[0], float(fs[0]), ne + int(c2[0])
-        out.append(PolishResult(x, problem.full_gaps(x)[0], fx, float(f0[i]), bool(ok), ne))
+        x = np.clip(x, problem.var_bounds[:, 0], problem.var_bounds[:, 1])
+        gaps, th = problem.split(x)
+        out.append(
+            PolishResult(x, gaps[0], fx, float(f0[i]), bool(ok), ne, None if th is None else th[0])
+        )
     return out

@@ -9,20 +9,34 @@ optuna's convention (``<= 0`` is feasible).
 
 Objectives are pluggable: anything implementing :class:`Objective` (a batch of gaps in,
 one value per stack and the photocurrents out) can be searched. Energy yield plugs in the
-same way; further design variables (absorber thicknesses) are meant to enter as extra
-columns named in :attr:`Objective.extra_variables` (none for efficiency).
+same way.
+
+Absorber thicknesses can be searched with the gaps (``thickness_windows_nm``): a junction
+with a finite absorber (``absorber`` ``"direct"``, ``"indirect"`` or ``"table"``, of
+:mod:`gapmatch.core.absorption`) and a thickness window gets one more variable, searched
+as ``log10`` of the thickness [m] (windows span nm to mm). Thinning the top cell of a
+two-terminal stack passes light on to the cells below and so shares current among them
+when the top gap is too low for current matching at full thickness; Bremner et al. [3]_
+discuss this as a way to use materials whose gaps miss the ideal combination. Thickness
+variables enter :meth:`Objective.evaluate` as its ``extra`` argument, ``(M, K)``
+thicknesses [m] of the windowed junctions, top first.
 
 References
 ----------
 .. [1] W. Shockley and H. J. Queisser, J. Appl. Phys. 32, 510 (1961).
 .. [2] A. De Vos, J. Phys. D 13, 839 (1980).
+.. [3] S. P. Bremner, C. Yi, I. Almansouri, A. Ho-Baillie and M. A. Green, "Optimum band
+   gap combinations to make best use of new photovoltaic materials", Solar Energy 135,
+   750 (2016).
 """
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import itertools
 import json
+import math
 from abc import ABC, abstractmethod
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -38,6 +52,8 @@ from ..io.spectra import get_spectrum
 from ..units import EV
 
 __all__ = [
+    "ABSORBER_CONDITIONS",
+    "THICKNESS_RANGE_NM",
     "DEFAULT_WINDOW_EV",
     "DEFAULT_MIN_SPACING_EV",
     "DEFAULT_ROBUSTNESS_EV",
@@ -57,6 +73,19 @@ DEFAULT_MIN_SPACING_EV = 0.05
 DEFAULT_ROBUSTNESS_EV = 0.02
 #: largest robustness tolerance accepted [eV]
 MAX_ROBUSTNESS_EV = 0.2
+#: thickness range a thickness window must lie in [nm] (that of :func:`gapmatch.evaluate`)
+THICKNESS_RANGE_NM = (1.0, 1e8)
+#: the :func:`gapmatch.evaluate` keywords of finite absorbers a search accepts as
+#: conditions (``thickness_nm`` sets the junctions without a thickness window)
+ABSORBER_CONDITIONS = (
+    "absorber",
+    "thickness_nm",
+    "alpha0_per_cm",
+    "urbach_energy_meV",
+    "alpha_file",
+    "light_trapping",
+    "refractive_index",
+)
 
 
 @dataclass
@@ -84,11 +113,11 @@ class Objective(ABC):
     and implement :meth:`evaluate`; a slow objective declares
     :attr:`cost_per_stack_s`. An energy-yield objective would integrate the
     stack's power over a year of spectra and temperatures in :meth:`evaluate`; the rest
-    of the search does not change. Extra design variables (for example absorber
-    thicknesses [m]) are reserved: :attr:`extra_variables` (``name -> (low, high)``)
-    and the ``extra`` argument of :meth:`evaluate` are the interface they will use, but
-    the search does not vary them yet and :func:`make_problem` rejects an objective that
-    declares any.
+    of the search does not change. Extra design variables use :attr:`extra_variables`
+    (``name -> (low, high)``) and the ``extra`` argument of :meth:`evaluate`: the
+    efficiency objective declares its searched absorber thicknesses [m] there (built by
+    :func:`make_problem` from ``thickness_windows_nm``); :func:`make_problem` rejects a
+    custom objective that declares any.
     """
 
     name: str = "objective"
@@ -124,18 +153,40 @@ class EfficiencyObjective(Objective):
     conditions : dict
         Keyword conditions of :func:`gapmatch.evaluate` (``spectrum``, ``spectrum_file``,
         ``sun_temperature_K``, ``irradiance_W_m2``, ``concentration``, ``temperature_K``
-        [K], ``ere``, ``dark_current``, ``cells_per_string``); validated by the caller.
+        [K], ``ere``, ``dark_current``, ``cells_per_string``, and the finite-absorber
+        keywords of :data:`ABSORBER_CONDITIONS`); validated by the caller.
+    thickness_windows_m : dict, optional
+        ``{junction index (0 = top): (low, high)}`` thickness windows [m] of the junctions
+        whose thickness is searched; their thicknesses arrive as the ``extra`` columns of
+        :meth:`evaluate`, in junction order. Each needs a finite absorber.
+    probe_gaps_eV : array_like, optional
+        ``(P, N)`` gaps [eV] spanning the search windows, used once to build and check the
+        absorber models (a tabulated absorption coefficient must reach the lowest gap).
+
+    Notes
+    -----
+    With finite absorbers the absorber models are built once (files read once) and every
+    batch only swaps in its thicknesses, so no file is read while the search runs.
 
     References
     ----------
     .. [1] W. Shockley and H. J. Queisser, J. Appl. Phys. 32, 510 (1961).
+    .. [2] T. Tiedje et al., IEEE Trans. Electron Devices 31, 711 (1984) (absorptance of
+       a finite absorber).
     """
 
     name = "efficiency"
     label = "efficiency [%]"
     scale = 100.0
 
-    def __init__(self, connection: str, conditions: dict) -> None:
+    def __init__(
+        self,
+        connection: str,
+        conditions: dict,
+        *,
+        thickness_windows_m: dict[int, tuple[float, float]] | None = None,
+        probe_gaps_eV=None,  # noqa: N803
+    ) -> None:
         self.connection = connection
         self.conditions = dict(conditions)
         c = self.conditions
@@ -154,11 +205,54 @@ class EfficiencyObjective(Objective):
             dark_model=c.get("dark_current", "boltzmann"),
             vm_ratio=None if cps is None else np.asarray(cps, dtype=int),
         )
+        self.thickness_windows_m = dict(sorted((thickness_windows_m or {}).items()))
+        self.extra_variables = {
+            f"thickness_{k + 1}_m": (float(lo), float(hi))
+            for k, (lo, hi) in self.thickness_windows_m.items()
+        }
+        self._device = None
+        if any(k in c for k in ABSORBER_CONDITIONS):
+            self._device, self._base_thickness_m = _finite_device(
+                connection, c, self.spectrum, self.thickness_windows_m, probe_gaps_eV
+            )
+
+    @property
+    def finite(self) -> bool:
+        """True when some junction has a finite absorber."""
+        return self._device is not None
+
+    def thickness_matrix_m(self, m: int, extra: np.ndarray | None) -> np.ndarray:
+        """``(M, N)`` thicknesses [m] of ``M`` stacks: the fixed ones, with the searched
+        junctions' columns from ``extra`` ``(M, K)`` (default: each window's upper end)."""
+        th = np.broadcast_to(self._base_thickness_m, (m, len(self._base_thickness_m))).copy()
+        cols = list(self.thickness_windows_m)
+        if cols:
+            if extra is None:
+                extra = np.array([hi for _, hi in self.thickness_windows_m.values()])
+            th[:, cols] = np.broadcast_to(np.asarray(extra, dtype=float), (m, len(cols)))
+        return th
 
     def evaluate(self, gaps_eV, extra=None) -> ObjectiveBatch:  # noqa: N803
-        sol = solve_stacks(
-            np.asarray(gaps_eV, dtype=float) * EV, self.spectrum, self.connection, **self._kw
-        )
+        g = np.atleast_2d(np.asarray(gaps_eV, dtype=float))
+        if self._device is None:
+            sol = solve_stacks(g * EV, self.spectrum, self.connection, **self._kw)
+        else:
+            from ..core.engine import solve_stacks_nonideal
+
+            dev = dataclasses.replace(
+                self._device, thickness_m=self.thickness_matrix_m(g.shape[0], extra)
+            )
+            kw = self._kw
+            sol = solve_stacks_nonideal(
+                g * EV,
+                self.spectrum,
+                self.connection,
+                dev,
+                temperature_K=kw["temperature_K"],
+                ere=kw["ere"],
+                dark_current=kw["dark_model"],
+                vm_ratio=kw["vm_ratio"],
+            )
         return ObjectiveBatch(sol.op.p_mpp / sol.incident_W_m2, sol.jph)
 
     def describe(self) -> dict:
@@ -169,7 +263,62 @@ class EfficiencyObjective(Objective):
         }
         if not isinstance(c.get("spectrum", ""), str):  # a Spectrum object: its description
             c["spectrum"] = self.spectrum.describe()
-        return {"name": self.name, "connection": self.connection, "conditions": c}
+        out = {"name": self.name, "connection": self.connection, "conditions": c}
+        if self.thickness_windows_m:  # (absent otherwise: older studies keep their names)
+            out["thickness_windows_m"] = {
+                str(k + 1): [float(lo), float(hi)]
+                for k, (lo, hi) in self.thickness_windows_m.items()
+            }
+        return out
+
+
+def _per_junction_nm(value, n: int) -> np.ndarray:
+    """``(N,)`` thicknesses [nm] from one value or one per junction (NaN where absent)."""
+    if value is None:
+        return np.full(n, np.nan)
+    try:
+        a = np.array(
+            [np.nan if v is None else v for v in np.atleast_1d(np.asarray(value, dtype=object))],
+            dtype=float,
+        )
+    except (TypeError, ValueError):
+        raise InputError("thickness_nm", "must be numbers [nm]", value) from None
+    if a.size == 1:
+        return np.full(n, float(a[0]))
+    if a.shape != (n,):
+        raise InputError(
+            "thickness_nm", f"needs one value or one per junction ({n}), top first [nm]", value
+        )
+    return a
+
+
+def _finite_device(connection, c, spectrum, windows_m, probe_gaps_eV):
+    """The device model of a search with finite absorbers, built (and checked) once, and
+    the fixed thicknesses [m] ``(N,)`` (NaN for step and searched junctions)."""
+    from ..device import build_physics
+
+    probe = np.atleast_2d(np.asarray(probe_gaps_eV, dtype=float))
+    n = probe.shape[1]
+    base_nm = _per_junction_nm(c.get("thickness_nm"), n)
+    probe_nm = base_nm.copy()
+    for k, (_, hi) in windows_m.items():
+        probe_nm[k] = hi * 1e9
+    kw = {k: c[k] for k in ABSORBER_CONDITIONS if k in c}
+    kw["thickness_nm"] = probe_nm
+    physics = build_physics(
+        probe,
+        connection,
+        spectrum,
+        np.asarray(c.get("temperature_K", 300.0), dtype=float),
+        c.get("dark_current", "boltzmann"),
+        **kw,
+    )
+    if physics is None:  # every junction a step absorber
+        return None, np.full(n, np.nan)
+    base_m = base_nm * 1e-9
+    for k in windows_m:
+        base_m[k] = np.nan
+    return physics.device, base_m
 
 
 #: declared cost per stack of the ideal (Boltzmann, step-absorber) paths [s]
@@ -178,6 +327,8 @@ IDEAL_COST_S = 1e-6
 BOSE_EINSTEIN_COST_S = 1.8e-4
 #: declared cost per stack of voltage matching with the automatic string ratio [s]
 AUTO_RATIO_COST_S = 7e-5
+#: declared cost per stack with finite absorbers (``absorber`` not all step) [s]
+FINITE_ABSORBER_COST_S = 8e-4
 
 
 def declared_cost_s(connection: str, conditions: dict) -> float:
@@ -186,7 +337,8 @@ def declared_cost_s(connection: str, conditions: dict) -> float:
     Nominal figures measured once on a 2-core desktop (``benchmarks/engine.py``), not at
     run time: the ideal paths about 1e-6 s, voltage matching with the automatic
     cells-per-string ratio about 7e-5 s, the Bose-Einstein dark current about
-    1.8e-4 s. A change in engine speed changes these constants, not a search's answer
+    1.8e-4 s, finite absorbers about 8e-4 s (batches of 1000, ``benchmarks/
+    search_thickness.py``). A change in engine speed changes these constants, not a search's answer
     from one run to the next.
     """
     cost = IDEAL_COST_S
@@ -194,6 +346,9 @@ def declared_cost_s(connection: str, conditions: dict) -> float:
         cost = max(cost, BOSE_EINSTEIN_COST_S)
     if connection == "voltage-matched" and conditions.get("cells_per_string") is None:
         cost = max(cost, AUTO_RATIO_COST_S)
+    absorber = conditions.get("absorber")
+    if absorber is not None and any(a != "step" for a in np.atleast_1d(absorber)):
+        cost = max(cost, FINITE_ABSORBER_COST_S)
     return cost
 
 
@@ -215,6 +370,9 @@ class Evaluation:
     constraints : numpy.ndarray
         ``(M, C)`` constraint values in optuna's convention (``<= 0`` feasible), columns
         named by :attr:`SearchProblem.constraint_names`.
+    thickness_m : numpy.ndarray or None
+        ``(M, K)`` thicknesses [m] of the junctions with a thickness window, top first;
+        ``None`` without thickness variables.
     """
 
     gaps_eV: np.ndarray  # noqa: N815
@@ -222,6 +380,7 @@ class Evaluation:
     robust: np.ndarray | None
     mismatch_ratio: np.ndarray
     constraints: np.ndarray
+    thickness_m: np.ndarray | None = None
 
     @property
     def feasible(self) -> np.ndarray:
@@ -253,6 +412,17 @@ class SearchProblem:
         What is maximised.
     conditions : dict
         The :func:`gapmatch.evaluate` keyword conditions (for the final full evaluation).
+    thickness_junctions : numpy.ndarray
+        ``(K,)`` indices (0 = top) of the junctions whose absorber thickness is searched,
+        in order; empty for a gap-only search.
+    thickness_bounds_m : numpy.ndarray
+        ``(K, 2)`` their thickness windows [m].
+
+    Notes
+    -----
+    The search variables ``x`` are the free gaps [eV] followed by ``log10`` of each
+    searched thickness [m] (:attr:`var_bounds`); :meth:`split` turns them into gaps and
+    thicknesses, :meth:`evaluate_vars` evaluates them.
     """
 
     n_junctions: int
@@ -264,6 +434,8 @@ class SearchProblem:
     robustness_eV: float | None  # noqa: N815
     objective: Objective
     conditions: dict = field(default_factory=dict)
+    thickness_junctions: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
+    thickness_bounds_m: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
 
     # ---- variables ---------------------------------------------------------------------
     @property
@@ -277,9 +449,63 @@ class SearchProblem:
         return int((~self.fixed).sum())
 
     @property
+    def n_thick(self) -> int:
+        """Number of searched thicknesses."""
+        return len(self.thickness_junctions)
+
+    @property
+    def n_vars(self) -> int:
+        """Number of search variables (free gaps, then searched thicknesses)."""
+        return self.n_free + self.n_thick
+
+    @property
     def param_names(self) -> list[str]:
-        """optuna parameter names of the free gaps (``gap_<k>_eV``, 1 = top)."""
-        return [f"gap_{k + 1}_eV" for k in self.free]
+        """optuna parameter names: the free gaps (``gap_<k>_eV``, 1 = top), then the
+        searched thicknesses (``thickness_<k>_m``, sampled on a log scale)."""
+        return [f"gap_{k + 1}_eV" for k in self.free] + [
+            f"thickness_{k + 1}_m" for k in self.thickness_junctions
+        ]
+
+    @property
+    def var_bounds(self) -> np.ndarray:
+        """``(n_vars, 2)`` bounds of the search variables: free gaps [eV], then ``log10``
+        of the thickness windows [m]."""
+        return np.vstack(
+            [self.bounds_eV[self.free], np.log10(self.thickness_bounds_m).reshape(-1, 2)]
+        )
+
+    def split(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
+        """``(M, N)`` gaps [eV] and ``(M, K)`` thicknesses [m] (``None`` for a gap-only
+        search) from ``(M, n_vars)`` search variables."""
+        x = np.atleast_2d(np.asarray(x, dtype=float))
+        gaps = self.full_gaps(x[:, : self.n_free])
+        if not self.n_thick:
+            return gaps, None
+        return gaps, 10.0 ** x[:, self.n_free :]
+
+    def params_from_x(self, x: np.ndarray) -> dict[str, float]:
+        """optuna parameters (gaps [eV], thicknesses [m]) of one variable vector."""
+        x = np.asarray(x, dtype=float).ravel()
+        vals = [float(v) for v in x[: self.n_free]] + [float(10.0**v) for v in x[self.n_free :]]
+        return dict(zip(self.param_names, vals, strict=True))
+
+    def x_from_params(self, params: dict) -> np.ndarray:
+        """The variable vector of optuna parameters (inverse of :meth:`params_from_x`)."""
+        names = self.param_names
+        g = [float(params[nm]) for nm in names[: self.n_free]]
+        t = [math.log10(float(params[nm])) for nm in names[self.n_free :]]
+        return np.array(g + t, dtype=float)
+
+    def thickness_windows_nm(self) -> dict[int, tuple[float, float]]:
+        """``{junction (1 = top): (low, high)}`` thickness windows [nm]."""
+
+        def nm(v: float) -> float:  # 12 digits: undo the round-off of nm -> m
+            return float(f"{float(v) * 1e9:.12g}")
+
+        return {
+            int(k) + 1: (nm(lo), nm(hi))
+            for k, (lo, hi) in zip(self.thickness_junctions, self.thickness_bounds_m, strict=True)
+        }
 
     @property
     def objective_names(self) -> list[str]:
@@ -309,7 +535,13 @@ class SearchProblem:
         """Largest shortfall of neighbour spacing [eV], ``(M,)`` (``<= 0`` when ordered)."""
         return np.max(self.min_spacing_eV - (gaps_eV[:, :-1] - gaps_eV[:, 1:]), axis=1)
 
-    def evaluate(self, gaps_eV: np.ndarray, *, robust: bool | None = None) -> Evaluation:  # noqa: N803
+    def evaluate(
+        self,
+        gaps_eV: np.ndarray,  # noqa: N803
+        *,
+        robust: bool | None = None,
+        thickness_m: np.ndarray | None = None,
+    ) -> Evaluation:
         """Objective and constraints of ``(M, N)`` gaps [eV] in one batch.
 
         Parameters
@@ -319,22 +551,31 @@ class SearchProblem:
         robust : bool, optional
             Also evaluate the robustness objective (default: when the problem has one).
             The 2^k corners and the centre of every stack's box go through the
-            evaluator in the same batch.
+            evaluator in the same batch (the box is over the free gaps; thicknesses are
+            held).
+        thickness_m : numpy.ndarray, optional
+            ``(M, K)`` thicknesses [m] of the searched junctions (default: each window's
+            upper end, the thick absorber).
         """
         g = np.atleast_2d(np.asarray(gaps_eV, dtype=float))
         m, n = g.shape
         if robust is None:
             robust = self.robustness_eV is not None
+        th = None
+        if self.n_thick:
+            th = self.thickness_bounds_m[:, 1] if thickness_m is None else thickness_m
+            th = np.broadcast_to(np.asarray(th, dtype=float), (m, self.n_thick))
         worst = None
         if robust and self.robustness_eV is not None:
             offs = self.corner_offsets()
             allg = (g[:, None, :] + offs[None, :, :]).reshape(-1, n)
-            ob = self.objective.evaluate(np.clip(allg, *GAP_RANGE_EV))
+            extra = None if th is None else np.repeat(th, len(offs), axis=0)
+            ob = self.objective.evaluate(np.clip(allg, *GAP_RANGE_EV), extra)
             vals = ob.value.reshape(m, len(offs))
             value, jph = vals[:, 0], ob.jph_A_m2.reshape(m, len(offs), n)[:, 0]
             worst = vals.min(axis=1)
         else:
-            ob = self.objective.evaluate(g)
+            ob = self.objective.evaluate(g) if th is None else self.objective.evaluate(g, th)
             value, jph = ob.value, ob.jph_A_m2
         mx = jph.max(axis=1)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -342,7 +583,12 @@ class SearchProblem:
         cons = [self.spacing_violation(g)]
         if self.min_mismatch_ratio is not None:
             cons.append(self.min_mismatch_ratio - ratio)
-        return Evaluation(g, value, worst, ratio, np.stack(cons, axis=1))
+        return Evaluation(g, value, worst, ratio, np.stack(cons, axis=1), th)
+
+    def evaluate_vars(self, x: np.ndarray, *, robust: bool | None = None) -> Evaluation:
+        """:meth:`evaluate` of ``(M, n_vars)`` search variables (see :meth:`split`)."""
+        gaps, th = self.split(x)
+        return self.evaluate(gaps, robust=robust, thickness_m=th)
 
     def corner_offsets(self) -> np.ndarray:
         """Centre, then the 2^k corners of the +/- delta box of the free gaps [eV].
@@ -355,16 +601,49 @@ class SearchProblem:
             offs[1 + i, self.free] = d * np.asarray(signs)
         return offs
 
-    def full_evaluation(self, gaps_eV) -> dict:  # noqa: N803
+    def full_evaluation(self, gaps_eV, thickness_m=None) -> dict:  # noqa: N803
         """The checked evaluation of one stack, with its loss breakdown: exactly what
-        ``gapmatch evaluate --json`` prints for it (``BatchResult.stack(0)``)."""
+        ``gapmatch evaluate --json`` prints for it (``BatchResult.stack(0)``).
+        ``thickness_m`` ``(K,)`` [m] sets the searched junctions' thicknesses (default:
+        each window's upper end)."""
         gaps = list(map(float, gaps_eV))
-        return evaluate(gaps, self.connection, losses=True, **self.conditions).stack(0)
+        return evaluate(
+            gaps, self.connection, losses=True, **self.evaluate_conditions(thickness_m)
+        ).stack(0)
+
+    def evaluate_conditions(self, thickness_m=None) -> dict:
+        """The :func:`gapmatch.evaluate` keywords of one stack of this problem, with the
+        searched thicknesses ``(K,)`` [m] (default: each window's upper end) filled into
+        ``thickness_nm``."""
+        cond = dict(self.conditions)
+        if not self.n_thick:
+            return cond
+        th = self.thickness_bounds_m[:, 1] if thickness_m is None else thickness_m
+        nm = _per_junction_nm(cond.get("thickness_nm"), self.n_junctions)
+        nm[self.thickness_junctions] = np.asarray(th, dtype=float).ravel() * 1e9
+        cond["thickness_nm"] = [None if not math.isfinite(v) else float(v) for v in nm]
+        return cond
+
+    def thick_problem(self) -> SearchProblem:
+        """The same problem with every searched thickness held at its window's upper end
+        (the thick-absorber reference a thinned optimum is compared with)."""
+        if not self.n_thick:
+            return self
+        cond = self.evaluate_conditions(None)
+        probe = np.vstack([self.bounds_eV[:, 0], self.bounds_eV[:, 1]])
+        obj = EfficiencyObjective(self.connection, cond, probe_gaps_eV=probe)
+        return dataclasses.replace(
+            self,
+            objective=obj,
+            conditions=cond,
+            thickness_junctions=np.zeros(0, dtype=int),
+            thickness_bounds_m=np.zeros((0, 2)),
+        )
 
     # ---- identity ----------------------------------------------------------------------
     def describe(self) -> dict:
         """JSON-ready definition (stored with the study, compared on resume)."""
-        return {
+        d = {
             "n_junctions": self.n_junctions,
             "connection": self.connection,
             "bounds_eV": self.bounds_eV.round(6).tolist(),
@@ -374,6 +653,12 @@ class SearchProblem:
             "robustness_eV": self.robustness_eV,
             "objective": self.objective.describe(),
         }
+        if self.n_thick:  # (absent otherwise: older studies keep their names)
+            d["thickness_windows_nm"] = {
+                str(j): [round(lo, 6), round(hi, 6)]
+                for j, (lo, hi) in self.thickness_windows_nm().items()
+            }
+        return d
 
     def fingerprint(self) -> str:
         """Short hash of :meth:`describe` (default study names use it)."""
@@ -411,6 +696,7 @@ def make_problem(
     min_mismatch_ratio: float | None = None,
     robustness_eV: float | None = None,  # noqa: N803
     objective: Objective | None = None,
+    thickness_windows_nm=None,
     **conditions,
 ) -> SearchProblem:
     """Build and validate a band-gap search problem.
@@ -439,10 +725,23 @@ def make_problem(
         +/- this amount [eV], in (0, 0.2] (e.g. 0.02); the result is then a Pareto front.
     objective : Objective, optional
         What to maximise (default :class:`EfficiencyObjective` under ``conditions``).
+    thickness_windows_nm : dict, optional
+        Search absorber thicknesses with the gaps: ``{junction: (low, high)}`` [nm],
+        junction numbered 1 (top) to N (or ``"top"`` / ``"bottom"``), each window inside
+        1-1e8 nm with low < high, e.g. ``{1: (100, 2000)}`` thins the top cell. Every
+        such junction needs a finite absorber (``absorber`` ``"direct"``,
+        ``"indirect"`` or ``"table"``); thicknesses are searched on a log scale, jointly
+        with the gaps and under the same constraints (robustness moves the gaps only).
+        Efficiency objective only. Motivation: Bremner et al., Solar Energy 135, 750
+        (2016), on thinning the top cell of a two-terminal stack to share current.
     **conditions
         Keyword conditions of :func:`gapmatch.evaluate`: ``spectrum``, ``spectrum_file``,
         ``sun_temperature_K`` [K], ``irradiance_W_m2`` [W m^-2], ``concentration``
-        [suns], ``temperature_K`` [K], ``ere``, ``dark_current``, ``cells_per_string``.
+        [suns], ``temperature_K`` [K], ``ere``, ``dark_current``, ``cells_per_string``,
+        and finite absorbers (:data:`ABSORBER_CONDITIONS`): ``absorber``,
+        ``thickness_nm`` [nm] (junctions without a thickness window), ``alpha0_per_cm``
+        [cm^-1], ``urbach_energy_meV`` [meV], ``alpha_file``, ``light_trapping``,
+        ``refractive_index``.
 
     Returns
     -------
@@ -452,8 +751,9 @@ def make_problem(
     ------
     InputError
         Naming the field and the allowed range: junction count, windows, fixed gaps,
-        spacing, mismatch ratio, robustness tolerance, or a window/spacing combination
-        that no ordered stack can satisfy.
+        spacing, mismatch ratio, robustness tolerance, thickness windows (reversed,
+        outside 1-1e8 nm, junction out of range, or on a step absorber), or a
+        window/spacing combination that no ordered stack can satisfy.
     """
     if (
         isinstance(n_junctions, bool)
@@ -501,7 +801,8 @@ def make_problem(
             g = check_range(f"fixed_eV[{j}]", v, *GAP_RANGE_EV, unit="eV")
             win[j - 1] = (g, g)
             fixed[j - 1] = True
-    if fixed.all():
+    twin = _thickness_windows(thickness_windows_nm, n)
+    if fixed.all() and not twin:
         raise InputError("fixed_eV", "leaves no free gap to search", fixed_eV)
     sp = check_range("min_spacing_eV", min_spacing_eV, 0.0, 1.0, unit="eV")
     # an ordered stack must fit: the highest reachable gap of each junction, walking down
@@ -540,6 +841,7 @@ def make_problem(
         "ere",
         "dark_current",
         "cells_per_string",
+        *ABSORBER_CONDITIONS,
     }
     for k in conditions:
         if k not in allowed:
@@ -552,17 +854,104 @@ def make_problem(
             "of more than 2 junctions (the automatic ratio choice is too slow to "
             "search), e.g. (1, 2, 3)",
         )
-    evaluate(probe.tolist(), connection, require_descending=False, **conditions)
+    absorber = conditions.get("absorber")
+    models = [absorber] * n if absorber is None or isinstance(absorber, str) else list(absorber)
+    if len(models) == 1:
+        models = models * n
+    for j in twin:
+        if len(models) == n and models[j - 1] in (None, "step"):
+            raise InputError(
+                f"thickness_windows_nm[{j}]",
+                f"junction {j} has absorber 'step' (no absorption model, so its "
+                "thickness does not matter); give it absorber 'direct', 'indirect' or "
+                "'table'",
+                list(twin[j]),
+            )
+    check = dict(conditions)
+    if twin:
+        nm = _per_junction_nm(check.get("thickness_nm"), n)
+        for j, (_, hi) in twin.items():
+            nm[j - 1] = hi
+        check["thickness_nm"] = [None if not math.isfinite(v) else float(v) for v in nm]
+    evaluate(probe.tolist(), connection, require_descending=False, **check)
+    windows_m = {j - 1: (lo * 1e-9, hi * 1e-9) for j, (lo, hi) in twin.items()}
     if objective is None:
-        objective = EfficiencyObjective(connection, conditions)
+        objective = EfficiencyObjective(
+            connection,
+            conditions,
+            thickness_windows_m=windows_m,
+            probe_gaps_eV=np.vstack([win[:, 0], win[:, 1]]),
+        )
     elif not isinstance(objective, Objective):
         raise InputError("objective", "must be a gapmatch.search.Objective", type(objective))
-    if objective.extra_variables:
+    elif twin:
+        raise InputError(
+            "thickness_windows_nm",
+            "applies to the efficiency objective only (leave objective unset)",
+            sorted(twin),
+        )
+    elif objective.extra_variables:
         raise InputError(
             "objective",
-            "extra design variables (e.g. thicknesses) are not searched yet; only band gaps",
+            "extra design variables of a custom objective are not searched yet; "
+            "absorber thicknesses are searched with thickness_windows_nm (efficiency "
+            "objective)",
             sorted(objective.extra_variables),
         )
+    tj = np.array(sorted(windows_m), dtype=int)
+    tb = np.array([windows_m[k] for k in tj], dtype=float).reshape(-1, 2)
     return SearchProblem(
-        n, connection, win, fixed, sp, min_mismatch_ratio, robustness_eV, objective, conditions
+        n,
+        connection,
+        win,
+        fixed,
+        sp,
+        min_mismatch_ratio,
+        robustness_eV,
+        objective,
+        conditions,
+        tj,
+        tb,
     )
+
+
+def _thickness_windows(value, n: int) -> dict[int, tuple[float, float]]:
+    """``{junction (1 = top): (low, high)}`` [nm] from ``thickness_windows_nm``, checked."""
+    if value is None:
+        return {}
+    name = "thickness_windows_nm"
+    if isinstance(value, dict):
+        pairs = list(value.items())
+    else:
+        try:
+            pairs = [(j, (lo, hi)) for j, lo, hi in value]
+        except (TypeError, ValueError):
+            raise InputError(
+                name,
+                "needs a {junction: (low, high)} mapping [nm] or (junction, low, high) triples",
+                value,
+            ) from None
+    out: dict[int, tuple[float, float]] = {}
+    for key, w in pairs:
+        j = key
+        if isinstance(key, str):
+            k = key.strip().lower()
+            j = 1 if k == "top" else n if k == "bottom" else int(k) if k.isdigit() else None
+        if isinstance(j, bool) or not isinstance(j, int | np.integer) or not 1 <= j <= n:
+            raise InputError(
+                name, f"junction numbers run from 1 (top) to {n} (or 'top', 'bottom')", key
+            )
+        j = int(j)
+        if j in out:
+            raise InputError(name, f"gives junction {j} twice", key)
+        fld = f"{name}[{j}]"
+        try:
+            lo, hi = (float(v) for v in w)
+        except (TypeError, ValueError):
+            raise InputError(fld, "needs a (low, high) pair [nm]", w) from None
+        lo = check_range(fld, lo, *THICKNESS_RANGE_NM, unit="nm")
+        hi = check_range(fld, hi, *THICKNESS_RANGE_NM, unit="nm")
+        if not lo < hi:
+            raise InputError(fld, "low must be below high [nm]", [lo, hi])
+        out[j] = (lo, hi)
+    return dict(sorted(out.items()))

@@ -20,9 +20,10 @@ def trials_frame(study, problem: SearchProblem) -> pd.DataFrame:
 
     Columns: ``trial``, ``state``, ``stage`` (``sobol`` = enqueued from the vectorised
     stage, ``sampler``, ``polish``), ``gap_1_eV ... gap_N_eV`` (fixed gaps included),
-    ``<objective>_pct`` (e.g. ``efficiency_pct``), ``worst_<objective>_pct`` with
-    robustness, ``mismatch_ratio``, one column per constraint (``<= 0`` feasible),
-    ``feasible``, ``worker_pid`` (process that ran the trial), ``duration_s``.
+    ``thickness_<k>_nm`` for each searched thickness, ``<objective>_pct`` (e.g.
+    ``efficiency_pct``), ``worst_<objective>_pct`` with robustness, ``mismatch_ratio``,
+    one column per constraint (``<= 0`` feasible), ``feasible``, ``worker_pid`` (process
+    that ran the trial), ``duration_s``.
     """
     rows = []
     cnames = problem.constraint_names
@@ -40,6 +41,9 @@ def trials_frame(study, problem: SearchProblem) -> pd.DataFrame:
             row[nm] = (
                 float(problem.bounds_eV[k, 0]) if problem.fixed[k] else t.params.get(nm, math.nan)
             )
+        for k in problem.thickness_junctions:
+            v = t.params.get(f"thickness_{k + 1}_m")
+            row[f"thickness_{k + 1}_nm"] = math.nan if v is None else 1e9 * float(v)
         vals = t.values or [math.nan] * len(onames)
         for nm, v in zip(onames, vals, strict=False):
             row[f"{nm}{suffix}"] = scale * v if v is not None else math.nan
@@ -104,6 +108,13 @@ class SearchResult:
         The study existed before this run.
     seed, sampler, workers, global_samples, elapsed_s
         How the run was made; ``elapsed_s`` [s].
+    best_thickness_nm : list or None
+        With thickness windows: every junction's thickness of the best stack [nm], top
+        first (``None`` for step junctions); alternatives carry ``thickness_nm`` too.
+    thick_reference : dict or None
+        With thickness windows: the thick-absorber optimum (every searched thickness at
+        its window's upper end, gaps re-optimised): ``gaps_eV``, ``thickness_nm``,
+        ``<objective>`` (fraction) and ``jsc_mA_cm2`` per junction.
     """
 
     problem: SearchProblem
@@ -125,6 +136,8 @@ class SearchResult:
     global_samples: int
     elapsed_s: float  # noqa: N815
     extra: dict = field(default_factory=dict)
+    best_thickness_nm: list | None = None
+    thick_reference: dict | None = None
 
     @property
     def efficiency(self) -> float:
@@ -147,14 +160,19 @@ class SearchResult:
         return df[m].sort_values(f"{names[0]}{suffix}", ascending=False)
 
     def optima_frame(self) -> pd.DataFrame:
-        """Best stack and alternatives: ``rank``, ``gap_k_eV``, ``<objective>_pct``,
-        ``delta_pct`` (below the best), ``local_max_check_passed`` (table data for
-        reports)."""
+        """Best stack and alternatives: ``rank``, ``gap_k_eV``, ``thickness_k_nm`` (each
+        searched thickness), ``<objective>_pct``, ``delta_pct`` (below the best),
+        ``local_max_check_passed`` (table data for reports)."""
         rows = [
             {
                 "gaps_eV": list(map(float, self.best_gaps_eV)),
                 self.problem.objective.name: self.best_value,
                 "local_max_check_passed": self.local_max_check_passed,
+                **(
+                    {"thickness_nm": self.best_thickness_nm}
+                    if self.best_thickness_nm is not None
+                    else {}
+                ),
             }
         ]
         rows += self.alternatives
@@ -165,6 +183,8 @@ class SearchResult:
             row: dict[str, Any] = {"rank": r + 1}
             for k, g in enumerate(d["gaps_eV"]):
                 row[f"gap_{k + 1}_eV"] = g
+            for k in self.problem.thickness_junctions:
+                row[f"thickness_{k + 1}_nm"] = d["thickness_nm"][k]
             row[f"{name}_pct" if s == 100 else name] = s * d[name]
             row["delta_pct" if s == 100 else "delta"] = s * (d[name] - self.best_value)
             row["local_max_check_passed"] = d["local_max_check_passed"]
@@ -176,10 +196,25 @@ class SearchResult:
         keys of ``gapmatch evaluate --json``), plus ``alternatives`` and a ``search``
         block (study, storage, trials, seed, timings)."""
         out = dict(self.best)
+        name = self.problem.objective.name
         out["alternatives"] = [
-            {"gaps_eV": a["gaps_eV"], self.problem.objective.name: a[self.problem.objective.name]}
+            {
+                "gaps_eV": a["gaps_eV"],
+                **({"thickness_nm": a["thickness_nm"]} if "thickness_nm" in a else {}),
+                name: a[name],
+            }
             for a in self.alternatives
         ]
+        if self.thick_reference is not None:
+            out["thickness_search"] = {
+                "windows_nm": {
+                    str(j): list(w) for j, w in self.problem.thickness_windows_nm().items()
+                },
+                "thickness_nm": self.best_thickness_nm,
+                "thick_absorber_optimum": self.thick_reference,
+                "note": "model projection with finite absorbers (the absorber models and "
+                "their parameters), not an ideal detailed-balance ceiling",
+            }
         if self.robust_optima:
             out["robust_optima"] = self.robust_optima
         out["search"] = {

@@ -17,6 +17,11 @@
    stored once as trials tagged ``stage = "polish"``. Distinct polished optima are the
    alternatives.
 
+With thickness windows (``thickness_windows_nm``) the thick-absorber optimum (every
+searched thickness at its window's upper end, gaps re-optimised; :func:`thick_reference`)
+is computed first and polished as one more start, so the thinned optimum is never below
+it; both are in the result.
+
 References
 ----------
 .. [1] T. Akiba et al., "Optuna: a next-generation hyperparameter optimization
@@ -62,6 +67,8 @@ __all__ = [
     "default_study_name",
     "run_settings",
     "shell_join",
+    "thick_reference",
+    "thickness_list_nm",
 ]
 
 _global_sample_count = global_samples  # optimise()'s argument shadows the name
@@ -83,12 +90,13 @@ class SearchInterrupted(KeyboardInterrupt):
 
 
 def default_trials(problem: SearchProblem) -> int:
-    """Default total trial count: 20 + 5 per free gap (x2 with robustness).
+    """Default total trial count: 20 + 5 per search variable (free gap or searched
+    thickness; x2 with robustness).
 
     The Sobol stage and the polish carry the accuracy (see DEVELOPERS.md); each stored
     trial costs about 0.1 s of database work with SQLite, so the default stays modest.
     """
-    n = 20 + 5 * problem.n_free
+    n = 20 + 5 * problem.n_vars
     return 2 * n if problem.robustness_eV is not None else n
 
 
@@ -295,17 +303,14 @@ def _optimise(
     gx, gv = (
         sobol_candidates(problem, n_global, seed)
         if n_global > 0
-        else (np.empty((0, problem.n_free)), np.empty(0))
+        else (np.empty((0, problem.n_vars)), np.empty(0))
     )
     seeds = distinct(gx, gv, n_seeds) if len(gx) else np.empty(0, dtype=int)
     desc = json.dumps(problem.describe(), sort_keys=True, default=str)
 
     def setup(study: optuna.Study) -> None:
         for i in seeds:
-            study.enqueue_trial(
-                dict(zip(problem.param_names, map(float, gx[i]), strict=True)),
-                user_attrs={"stage": "sobol"},
-            )
+            study.enqueue_trial(problem.params_from_x(gx[i]), user_attrs={"stage": "sobol"})
         study.set_user_attr("settings", settings)
         study.set_user_attr("problem", desc)  # last: the study is ready for others
 
@@ -413,9 +418,9 @@ def _optimise(
         and trial_stage(t) not in UNCOUNTED_STAGES
         and trial_attr(t, "feasible")
     ]
-    tx = [[t.params[nm] for nm in problem.param_names] for t in explored]
+    tx = [problem.x_from_params(t.params) for t in explored]
     tv = [t.values[0] for t in explored]
-    cx = np.vstack([gx[: 50 * polish_starts], np.array(tx).reshape(-1, problem.n_free)])
+    cx = np.vstack([gx[: 50 * polish_starts], np.array(tx).reshape(-1, problem.n_vars)])
     cv = np.concatenate([gv[: 50 * polish_starts], np.array(tv)])
     best_trial = float(np.max(tv)) if tv else float("nan")
     if len(cx) == 0:
@@ -425,7 +430,15 @@ def _optimise(
     starts = distinct(cx, cv, polish_starts)
     if slow:  # e.g. voltage matching with the automatic ratio: fewer, cheaper starts
         starts = starts[:3]
-    pol = polish(problem, cx[starts], seed=seed, nelder_mead=0 if slow else 3)
+    sx = cx[starts]
+    thick = None
+    if problem.n_thick:
+        # the thick-absorber optimum is a point of the thinned problem (every thickness
+        # at its window's upper end): polished as one more start, the thinned optimum
+        # is never below it
+        thick = thick_reference(problem, seed=seed)
+        sx = np.vstack([sx, thick["x"]])
+    pol = polish(problem, sx, seed=seed, nelder_mead=0 if slow else 3)
     robust_pol = []
     if problem.robustness_eV is not None and explored:
         rx = np.array(tx)
@@ -439,8 +452,19 @@ def _optimise(
     keep = distinct(px, pv, alternatives + 1)
     best = pol[keep[0]]
     alts = [pol[i] for i in keep[1:]]
-    full = problem.full_evaluation(best.gaps_eV)
+    full = problem.full_evaluation(best.gaps_eV, best.thickness_m)
     frame = trials_frame(study, problem)
+
+    def alt(r) -> dict:
+        d = {
+            "gaps_eV": [float(g) for g in r.gaps_eV],
+            problem.objective.name: float(r.value),
+            "local_max_check_passed": r.local_max_check_passed,
+        }
+        if r.thickness_m is not None:
+            d["thickness_nm"] = thickness_list_nm(problem, r.thickness_m)
+        return d
+
     return SearchResult(
         problem=problem,
         study_name=study_name,
@@ -449,19 +473,17 @@ def _optimise(
         best_gaps_eV=best.gaps_eV.copy(),
         best_value=best.value,
         local_max_check_passed=best.local_max_check_passed,
-        alternatives=[
-            {
-                "gaps_eV": [float(g) for g in r.gaps_eV],
-                problem.objective.name: float(r.value),
-                "local_max_check_passed": r.local_max_check_passed,
-            }
-            for r in alts
-        ],
+        alternatives=[alt(r) for r in alts],
         robust_optima=[
             {
                 "gaps_eV": [float(g) for g in r.gaps_eV],
+                **(
+                    {"thickness_nm": thickness_list_nm(problem, r.thickness_m)}
+                    if r.thickness_m is not None
+                    else {}
+                ),
                 f"worst_{problem.objective.name}": float(r.value),
-                problem.objective.name: float(problem.evaluate(r.gaps_eV[None]).value[0]),
+                problem.objective.name: float(problem.evaluate_vars(r.x_eV[None]).value[0]),
             }
             for r in robust_pol
         ],
@@ -474,7 +496,66 @@ def _optimise(
         workers=workers,
         global_samples=n_global,
         elapsed_s=time.perf_counter() - t0,
+        best_thickness_nm=None
+        if best.thickness_m is None
+        else thickness_list_nm(problem, best.thickness_m),
+        thick_reference=None if thick is None else _reference_summary(problem, thick),
     )
+
+
+def thickness_list_nm(problem: SearchProblem, thickness_m) -> list[float | None]:
+    """Every junction's thickness [nm], top first, with the searched ones from
+    ``thickness_m`` ``(K,)`` [m] (``None`` for step junctions)."""
+    cond = problem.evaluate_conditions(np.asarray(thickness_m, dtype=float))
+    n = problem.n_junctions
+    models = cond.get("absorber") or "step"
+    models = [models] * n if isinstance(models, str) else list(models)
+    models = models * n if len(models) == 1 else models
+    return [None if m == "step" else t for m, t in zip(models, cond["thickness_nm"], strict=True)]
+
+
+def thick_reference(problem: SearchProblem, *, seed: int = 0) -> dict:
+    """The thick-absorber optimum of a thinned problem: the gaps searched with every
+    searched thickness held at its window's upper end (Sobol stage and polish of
+    :meth:`SearchProblem.thick_problem`, no optuna, no storage).
+
+    Returns
+    -------
+    dict
+        ``x`` (the point as search variables of ``problem``), ``gaps_eV``, ``value``
+        (fraction) and ``thickness_m`` ``(K,)`` [m].
+    """
+    tp = problem.thick_problem()
+    hi = problem.thickness_bounds_m[:, 1]
+    if tp.n_free == 0:
+        gaps = tp.bounds_eV[:, 0].copy()
+        value = float(tp.evaluate(gaps[None], robust=False).value[0])
+    else:
+        gx, gv = sobol_candidates(tp, _global_sample_count(tp), seed)
+        if len(gx) == 0:
+            raise InputError(
+                "bounds_eV",
+                "no feasible stack was found at the thick end of the thickness windows; "
+                "widen the windows or relax the constraints",
+            )
+        starts = distinct(gx, gv, 3 if is_slow(tp) else 8)
+        pol = polish(tp, gx[starts], seed=seed, nelder_mead=0 if is_slow(tp) else 3)
+        b = max(pol, key=lambda r: r.value)
+        gaps, value = b.gaps_eV.copy(), float(b.value)
+    x = np.concatenate([gaps[problem.free], np.log10(hi)])
+    return {"x": x, "gaps_eV": gaps, "value": value, "thickness_m": hi.copy()}
+
+
+def _reference_summary(problem: SearchProblem, ref: dict) -> dict:
+    """JSON-ready thick-absorber optimum: gaps, thicknesses [nm], efficiency and Jsc per
+    junction [mA cm^-2] of its full evaluation."""
+    full = problem.full_evaluation(ref["gaps_eV"], ref["thickness_m"])
+    return {
+        "gaps_eV": [float(g) for g in ref["gaps_eV"]],
+        "thickness_nm": thickness_list_nm(problem, ref["thickness_m"]),
+        problem.objective.name: float(full["efficiency"]),
+        "jsc_mA_cm2": [float(j["jsc_mA_cm2"]) for j in full["junctions"]],
+    }
 
 
 def _start_workers(problem, url, study_name, sampler, seed, trials, workers, guard) -> list:
@@ -519,8 +600,12 @@ def _store_polished(study, problem, results) -> None:
         nm: optuna.distributions.FloatDistribution(
             float(problem.bounds_eV[k, 0]), float(problem.bounds_eV[k, 1])
         )
-        for nm, k in zip(problem.param_names, problem.free, strict=True)
+        for nm, k in zip(problem.param_names, problem.free, strict=False)
     }
+    for nm, (lo, hi) in zip(
+        problem.param_names[problem.n_free :], problem.thickness_bounds_m, strict=True
+    ):
+        dists[nm] = optuna.distributions.FloatDistribution(float(lo), float(hi), log=True)
 
     def key(params: dict) -> tuple:
         return tuple(round(float(params[nm]), 12) for nm in problem.param_names)
@@ -528,13 +613,13 @@ def _store_polished(study, problem, results) -> None:
     stored = {key(t.params) for t in study.get_trials(deepcopy=False) if trial_stage(t) == "polish"}
     for r in results:
         params = {
-            nm: float(np.clip(r.x_eV[i], dists[nm].low, dists[nm].high))
-            for i, nm in enumerate(problem.param_names)
+            nm: float(np.clip(v, dists[nm].low, dists[nm].high))
+            for nm, v in problem.params_from_x(r.x_eV).items()
         }
         if key(params) in stored:  # a rerun of a finished study: polished already
             continue
         stored.add(key(params))
-        ev = problem.evaluate(r.gaps_eV[None])
+        ev = problem.evaluate_vars(r.x_eV[None])
         values = [float(ev.value[0])]
         if ev.robust is not None:
             values.append(float(ev.robust[0]))

@@ -29,7 +29,6 @@ import socket
 import sys
 import time
 
-import numpy as np
 import optuna
 
 from .problem import SearchProblem
@@ -244,13 +243,15 @@ class TrialObjective:
             trial.set_user_attr("stage", "surplus")
             raise optuna.TrialPruned("the study's trial budget is taken")
         p = self.problem
-        x = np.array(
-            [
-                trial.suggest_float(name, float(p.bounds_eV[k, 0]), float(p.bounds_eV[k, 1]))
-                for name, k in zip(p.param_names, p.free, strict=True)
-            ]
-        )
-        ev = p.evaluate(p.full_gaps(x))
+        params = {
+            name: trial.suggest_float(name, float(p.bounds_eV[k, 0]), float(p.bounds_eV[k, 1]))
+            for name, k in zip(p.param_names, p.free, strict=False)
+        }
+        for name, (lo, hi) in zip(
+            p.param_names[p.n_free :], p.thickness_bounds_m, strict=True
+        ):  # thicknesses [m] on a log scale
+            params[name] = trial.suggest_float(name, float(lo), float(hi), log=True)
+        ev = p.evaluate_vars(p.x_from_params(params)[None, :])
         cons = [float(c) for c in ev.constraints[0]]
         # one attribute write per trial (each write is a database round trip)
         trial.set_user_attr(
