@@ -376,7 +376,9 @@ def run_site_map(args: argparse.Namespace) -> int:
         prefix = Path(args.out)
         frame = check_frame(m.to_frame(), what=f"{prefix}_map.csv")
         text = dumps(summary, what=f"{prefix}_summary.json", indent=2)
-        write_atomic(f"{prefix}_map.csv", frame.to_csv(index=False, float_format="%.6g"))
+        from ..io.csv_fast import frame_csv
+
+        write_atomic(f"{prefix}_map.csv", frame_csv(frame))
         write_atomic(f"{prefix}_summary.json", text)
         for kind in ("series", "independent", "difference"):
             html = yield_map_figure(m, kind).to_html(include_plotlyjs="cdn", full_html=True)

@@ -135,7 +135,9 @@ def run(args: argparse.Namespace) -> int:
         prefix = Path(args.out)
         frame = check_frame(m.to_frame(), what=f"{prefix}_map.csv")
         text = dumps(summary, what=f"{prefix}_summary.json", indent=2)
-        write_atomic(f"{prefix}_map.csv", frame.to_csv(index=False, float_format="%.6g"))
+        from ..io.csv_fast import frame_csv
+
+        write_atomic(f"{prefix}_map.csv", frame_csv(frame))
         write_atomic(f"{prefix}_summary.json", text)
         print(f"wrote {prefix}_map.csv and {prefix}_summary.json", file=sys.stderr)
     if args.json:

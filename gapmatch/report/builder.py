@@ -31,6 +31,7 @@ from plotly.offline import get_plotlyjs
 
 from ..errors import InputError
 from ..io.atomic import write_atomic
+from ..io.csv_fast import frame_csv
 from ..study import Study
 from .context import ReportContext
 from .html import esc
@@ -308,7 +309,7 @@ def build_report(
             for suffix, obj in out.data.items():
                 fname = f"{study.name}_{suffix}"
                 if isinstance(obj, pd.DataFrame):
-                    files[fname] = obj.to_csv(index=False, float_format="%.6g")
+                    files[fname] = frame_csv(obj)
                 else:
                     files[fname] = json.dumps(obj, indent=2, default=_jsonable, allow_nan=False)
             bar.update(1)
