@@ -378,7 +378,8 @@ class MapResult:
         -------
         pandas.DataFrame
             ``gap_<i>_eV`` and ``gap_<j>_eV`` for the axis junctions ``i, j`` (1 = top),
-            ``descending`` (gaps in physical order), then per connection
+            ``gaps_in_physical_order`` (True where the upper of the two axis junctions has
+            the larger gap), then per connection
             ``efficiency_<connection>_pct``, ``mismatch_ratio_<connection>``, and for
             re-optimised maps the free gaps ``gap_<k>_<connection>_eV``; with both
             series and independent maps ``difference_independent_minus_series_pct``.
@@ -388,7 +389,7 @@ class MapResult:
         cols: dict[str, Any] = {
             f"gap_{i}_eV": xx.ravel(),
             f"gap_{j}_eV": yy.ravel(),
-            "descending": self.descending.ravel(),
+            "gaps_in_physical_order": self.descending.ravel(),
         }
         if self.others == "fixed":
             for k in range(self.n_junctions):

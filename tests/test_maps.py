@@ -180,7 +180,7 @@ def test_frame_and_summary(small_map):
     f = small_map.to_frame()
     assert len(f) == small_map.x_eV.size * small_map.y_eV.size
     for col in f.columns:
-        if col != "descending":
+        if col != "gaps_in_physical_order":
             assert col.endswith(("_eV", "_pct")) or col.startswith("mismatch_ratio"), col
     s = json.loads(json.dumps(small_map.summary()))
     assert set(s["connections"]) == {"series", "independent"}
@@ -243,7 +243,7 @@ def test_cli_map_writes_grid_and_summary(tmp_path, capsys):
     out = capsys.readouterr().out
     assert code == 0 and "series" in out and "not ratings" in out
     grid = (tmp_path / "m_map.csv").read_text().splitlines()
-    assert grid[0].startswith("gap_1_eV,gap_2_eV,descending,efficiency_series_pct")
+    assert grid[0].startswith("gap_1_eV,gap_2_eV,gaps_in_physical_order,efficiency_series_pct")
     assert len(grid) == 1 + 9 * 7
     s = json.loads((tmp_path / "m_summary.json").read_text())
     opt = s["connections"]["independent"]["optimum"]

@@ -407,7 +407,7 @@ def stacks_section(ctx: ReportContext) -> SectionOutput:
                 "V_oc [V]",
                 f"J_sc [{j_unit}]",
                 "FF [-]",
-                "J_min/J_max [-]",
+                "photocurrent ratio min/max [-]",
                 "cells per string, top first",
                 "note",
             ],

@@ -93,7 +93,7 @@ def parallel_coordinates_figure(result: SearchResult, feasible_only: bool = Fals
     col = _value_col(result)
     n = result.problem.n_junctions
     dims = [dict(label=f"E_g,{k + 1} [eV]", values=df[f"gap_{k + 1}_eV"]) for k in range(n)]
-    dims.append(dict(label="J_min/J_max [-]", values=df["mismatch_ratio"]))
+    dims.append(dict(label="photocurrent ratio min/max [-]", values=df["mismatch_ratio"]))
     for nm in result.problem.objective_names[1:]:
         c = f"{nm}_pct" if result.problem.objective.scale == 100.0 else nm
         dims.append(dict(label=f"worst-case {_label(result)}", values=df[c]))
