@@ -36,10 +36,9 @@ from __future__ import annotations
 import itertools
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 
 from .core.engine import solve_stacks
 from .core.registry import CONNECTIONS
@@ -49,6 +48,9 @@ from .limits import GAP_RANGE_EV, MAX_JUNCTIONS, MAX_MAP_POINTS, check_cell_cond
 from .model import Illumination
 from .results import Conditions
 from .units import EV, a_m2_to_ma_cm2
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 __all__ = [
     "MAP_CONNECTIONS",
@@ -273,6 +275,8 @@ class MapResult:
         iy = np.argmax(eff, axis=0)
         best = eff[iy, np.arange(eff.shape[1])]
         keep = np.isfinite(best)
+        import pandas as pd
+
         return pd.DataFrame(
             {
                 "x_eV": self.x_eV[keep],
@@ -377,6 +381,19 @@ class MapResult:
         Returns
         -------
         pandas.DataFrame
+            The columns of :meth:`columns`, in that order.
+        """
+        import pandas as pd
+
+        return pd.DataFrame(self.columns())
+
+    def columns(self) -> dict[str, np.ndarray]:
+        """The columns of :meth:`to_frame` as plain arrays (no pandas needed).
+
+        Returns
+        -------
+        dict of str to numpy.ndarray
+            One 1-D array per column, one row per grid point:
             ``gap_<i>_eV`` and ``gap_<j>_eV`` for the axis junctions ``i, j`` (1 = top),
             ``gaps_in_physical_order`` (True where the upper of the two axis junctions has
             the larger gap), then per connection
@@ -394,7 +411,7 @@ class MapResult:
         if self.others == "fixed":
             for k in range(self.n_junctions):
                 if k + 1 not in self.axes:
-                    cols[f"gap_{k + 1}_eV"] = float(self.base_gaps_eV[k])
+                    cols[f"gap_{k + 1}_eV"] = np.full(xx.size, float(self.base_gaps_eV[k]))
         for c in self.connections:
             cols[f"efficiency_{c.replace('-', '_')}_pct"] = 100 * self.efficiency[c].ravel()
             cols[f"mismatch_ratio_{c.replace('-', '_')}"] = self.mismatch_ratio(c).ravel()
@@ -406,7 +423,7 @@ class MapResult:
                         ].ravel()
         if "series" in self.efficiency and "independent" in self.efficiency:
             cols["difference_independent_minus_series_pct"] = self.difference().ravel()
-        return pd.DataFrame(cols)
+        return cols
 
     def summary(self, within_pct: float = 1.0) -> dict:
         """JSON-ready summary: grid settings, conditions and per connection the optimum
@@ -477,6 +494,8 @@ class CutResult:
                 cols[f"gap_{k + 1}_eV"] = float(g)
         for c, e in self.efficiency.items():
             cols[f"efficiency_{c.replace('-', '_')}_pct"] = 100 * e
+        import pandas as pd
+
         return pd.DataFrame(cols)
 
 

@@ -7,7 +7,7 @@ import sys
 from pathlib import Path
 
 from ..core.registry import CONNECTIONS
-from ..io.finite import check_frame, dumps
+from ..io.finite import check_columns, dumps
 from ..maps import OTHERS_MODES, compute_map
 from .commands import COMMANDS
 from .energy import add_site_arguments
@@ -133,11 +133,11 @@ def run(args: argparse.Namespace) -> int:
         from ..io.atomic import write_atomic
 
         prefix = Path(args.out)
-        frame = check_frame(m.to_frame(), what=f"{prefix}_map.csv")
+        columns = check_columns(m.columns(), what=f"{prefix}_map.csv")
         text = dumps(summary, what=f"{prefix}_summary.json", indent=2)
-        from ..io.csv_fast import frame_csv
+        from ..io.csv_fast import columns_csv
 
-        write_atomic(f"{prefix}_map.csv", frame_csv(frame))
+        write_atomic(f"{prefix}_map.csv", columns_csv(columns))
         write_atomic(f"{prefix}_summary.json", text)
         print(f"wrote {prefix}_map.csv and {prefix}_summary.json", file=sys.stderr)
     if args.json:

@@ -64,3 +64,31 @@ def check_frame(frame, *, what: str = "CSV output"):
         bad = [c for c in num.columns if not np.isfinite(num[c].to_numpy(dtype=float)).all()]
         raise InputError(what, f"{_PROBLEM}; columns {', '.join(map(str, bad))}")
     return frame
+
+
+def check_columns(columns, *, what: str = "CSV output"):
+    """Return ``columns`` unchanged if every numeric cell is finite (as
+    :func:`check_frame`, for a mapping of column name to array).
+
+    Parameters
+    ----------
+    columns : mapping of str to numpy.ndarray
+        The table to be written, column by column.
+    what : str
+        Name of the output, shown in the error message.
+
+    Raises
+    ------
+    InputError
+        If a numeric cell is +-Infinity or NaN.
+    """
+    import numpy as np
+
+    bad = [
+        str(c)
+        for c, v in columns.items()
+        if np.asarray(v).dtype.kind == "f" and not np.isfinite(v).all()
+    ]
+    if bad:
+        raise InputError(what, f"{_PROBLEM}; columns {', '.join(bad)}")
+    return columns
