@@ -52,10 +52,14 @@ from .core.absorption import ABSORBER_MODELS, LIGHT_TRAPPING
 from .core.diodes import DARK_MODELS
 from .core.registry import CONNECTIONS
 from .core.spectra import MAX_CONCENTRATION
-from .energy.celltemp import CELL_TEMPERATURE_MODELS, SAPM_MOUNTINGS, CellTemperature
-from .energy.geometry import TRACKING
-from .energy.readers import WEATHER_FORMATS
-from .energy.spectra import TRANSPOSITION_MODELS
+from .energy.celltemp import CellTemperature
+from .energy.choices import (
+    CELL_TEMPERATURE_MODELS,
+    SAPM_MOUNTINGS,
+    TRACKING,
+    TRANSPOSITION_MODELS,
+    WEATHER_FORMATS,
+)
 from .errors import InputError
 from .io.spectra import SPECTRUM_CHOICES
 from .limits import (

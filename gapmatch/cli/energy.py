@@ -35,10 +35,13 @@ def add_site_arguments(p: argparse.ArgumentParser, *, weather_default: str | Non
         Default of ``--weather`` (``"demo"`` for ``yield``; ``None`` elsewhere: no site
         unless asked).
     """
-    from ..energy.celltemp import CELL_TEMPERATURE_MODELS, SAPM_MOUNTINGS
-    from ..energy.geometry import TRACKING
-    from ..energy.readers import WEATHER_FORMATS
-    from ..energy.spectra import TRANSPOSITION_MODELS
+    from ..energy.choices import (
+        CELL_TEMPERATURE_MODELS,
+        SAPM_MOUNTINGS,
+        TRACKING,
+        TRANSPOSITION_MODELS,
+        WEATHER_FORMATS,
+    )
 
     g = p.add_argument_group(
         "site (annual energy; modelled limit, not an energy rating: defer to IEC 61853)"

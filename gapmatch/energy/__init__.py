@@ -9,13 +9,29 @@ idealised cells, not energy ratings (see :data:`YIELD_CAUTION`).
 
 from __future__ import annotations
 
-from .api import annual_yield, site_spectra, yield_from_spectra
-from .celltemp import CellTemperature
-from .geometry import Mounting
-from .readers import demo_weather_path, read_spectra_csv, read_weather
-from .result import YIELD_CAUTION, YieldResult
-from .spectra import HourlySpectra
-from .weather import Location, Weather
+from importlib import import_module
+
+#: public name -> submodule; loaded on first use, so that the command line can read the
+#: site option lists (``celltemp``, ``geometry``, ``readers``, ``spectra`` constants)
+#: without importing pandas and pvlib
+_WHERE = {
+    "annual_yield": "api",
+    "site_spectra": "api",
+    "yield_from_spectra": "api",
+    "CellTemperature": "celltemp",
+    "Mounting": "geometry",
+    "demo_weather_path": "readers",
+    "read_spectra_csv": "readers",
+    "read_weather": "readers",
+    "YIELD_CAUTION": "result",
+    "YieldResult": "result",
+    "HourlySpectra": "spectra",
+    "Location": "weather",
+    "Weather": "weather",
+    # the search front needs optuna
+    "optimise_yield": "search",
+    "YieldSearchResult": "search",
+}
 
 __all__ = [
     "annual_yield",
@@ -37,9 +53,12 @@ __all__ = [
 
 
 def __getattr__(name: str):
-    # the search front needs optuna: imported only when asked for
-    if name in ("optimise_yield", "YieldSearchResult"):
-        from . import search
-
-        return getattr(search, name)
+    if name in _WHERE:
+        value = getattr(import_module(f".{_WHERE[name]}", __name__), name)
+        globals()[name] = value
+        return value
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

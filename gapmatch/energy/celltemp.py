@@ -15,17 +15,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, check_range
+from .choices import CELL_TEMPERATURE_MODELS, SAPM_MOUNTINGS
 
 __all__ = ["CELL_TEMPERATURE_MODELS", "SAPM_MOUNTINGS", "CellTemperature"]
-
-CELL_TEMPERATURE_MODELS = ("sapm", "faiman", "fixed")
-#: pvlib's SAPM presets (``pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS['sapm']``)
-SAPM_MOUNTINGS = (
-    "open_rack_glass_glass",
-    "close_mount_glass_glass",
-    "open_rack_glass_polymer",
-    "insulated_back_glass_polymer",
-)
 
 
 @dataclass(frozen=True)

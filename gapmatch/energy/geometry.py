@@ -16,15 +16,17 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ..errors import InputError, check_range
-from .weather import Weather
+from .choices import TRACKING
+
+if TYPE_CHECKING:  # pandas comes with the weather, not with the option lists
+    from .weather import Weather
 
 __all__ = ["TRACKING", "Mounting", "sun_and_plane"]
-
-TRACKING = ("fixed", "single-axis")
 
 
 @dataclass(frozen=True)

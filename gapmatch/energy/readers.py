@@ -48,6 +48,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
+from .choices import WEATHER_FORMATS
 from .weather import WEATHER_RANGES, Location, Weather
 
 __all__ = [
@@ -62,7 +63,7 @@ __all__ = [
     "demo_weather_path",
 ]
 
-WEATHER_FORMATS = ("tmy3", "tmy2", "epw", "pvgis", "csv")
+
 _CSV_REQUIRED = ("ghi_W_m2", "dni_W_m2", "dhi_W_m2", "temp_air_C", "wind_speed_m_s")
 #: the year every typical-year file is re-stamped to (a non-leap year), so that the
 #: months taken from different years form one continuous year

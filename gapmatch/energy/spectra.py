@@ -67,6 +67,7 @@ import pandas as pd
 
 from ..core.hourly import PhotonTable
 from ..errors import InputError, check_range
+from .choices import TRANSPOSITION_MODELS
 from .geometry import Mounting, sun_and_plane
 from .weather import Weather
 
@@ -93,7 +94,6 @@ SPECTRAL_DEFAULTS = {
     # wavelength at which a broadband AOD equals the spectral AOD (Molineaux 1998)
     "broadband_aod_wavelength_nm": 700.0,
 }
-TRANSPOSITION_MODELS = ("haydavies", "perez", "isotropic")
 
 
 def trapezoid_W_m2(wavelength_nm: np.ndarray, irradiance_W_m2_nm: np.ndarray) -> np.ndarray:
