@@ -666,3 +666,79 @@ def _vm_bounds_row(model, jph, vt, a, b, c, vocj, vm, jm, i, cand, ub, work):
                 if s > best:
                     best = s
         ub[q] = best
+
+
+# ---------------------------------------------------------------------------------------
+# independent connection with luminescent coupling (coupling.solve_independent_coupled)
+# ---------------------------------------------------------------------------------------
+@njit(**_INLINE)
+def _mpp_with_price(jeff, j0, vt, r, price, x0):
+    """Maximise ``J V(J) - r J^2 + price (J_eff - J)`` over ``J`` in ``[0, J_eff]`` (the
+    safeguarded Newton iteration of :func:`.solvers.maximise_concave`)."""
+    lnj0 = math.log(j0)
+    lo = 0.0
+    hi = max(jeff, 0.0)
+    scale = max(hi - lo, 1e-300)
+    x = min(max(x0, lo), hi)
+    for _ in range(200):
+        w = jeff + j0 - x
+        g = vt * (math.log(w) - lnj0) - x * vt / w - 2.0 * r * x - price
+        h = -2.0 * vt / w - x * vt / (w * w) - 2.0 * r
+        if g > 0:
+            lo = x
+        else:
+            hi = x
+        xn = x - g / h
+        if not (xn >= lo and xn <= hi):
+            xn = 0.5 * (lo + hi)
+        step = abs(xn - x)
+        x = xn
+        tol = XTOL_REL * scale + 4.0 * np.spacing(abs(x))
+        if step <= tol or g == 0 or hi - lo <= tol:
+            break
+    return x
+
+
+@njit(**_JIT)
+def independent_coupled(jph, j0, vt, k, r, tol_rel, max_sweeps, j_out, jeff_out):
+    """Block coordinate sweeps of :func:`.coupling.solve_independent_coupled`, one stack
+    at a time: each stack stops when no current of its own moved by more than
+    ``tol_rel`` of its largest photocurrent (fills ``j_out``, ``jeff_out``)."""
+    m, n = jph.shape
+    j_old = np.empty(n)
+    price = np.empty(n)
+    for s in range(m):
+        scale = jph[s, 0]
+        coupled = False
+        for i in range(n):
+            price[i] = 0.0
+            j_out[s, i] = 0.9 * jph[s, i]
+            jeff_out[s, i] = jph[s, i]
+            scale = max(scale, jph[s, i])
+            if k[s, i] != 0.0:
+                coupled = True
+        scale = max(scale, 1e-300)
+        for _ in range(max_sweeps):
+            for i in range(n):
+                j_old[i] = j_out[s, i]
+            for i in range(n):
+                if i:
+                    jeff_out[s, i] = jph[s, i] + k[s, i - 1] * (
+                        jeff_out[s, i - 1] - j_out[s, i - 1]
+                    )
+                else:
+                    jeff_out[s, i] = jph[s, i] + 0.0
+                je = jeff_out[s, i]
+                x0 = min(max(j_out[s, i], 0.0), je)
+                j_out[s, i] = _mpp_with_price(je, j0[s, i], vt[s, i], r[s, i], price[i], x0)
+            mu = 0.0
+            for i in range(n - 1, 0, -1):
+                w = jeff_out[s, i] + j0[s, i] - j_out[s, i]
+                mu = j_out[s, i] * vt[s, i] / w + k[s, i] * mu
+                price[i - 1] = k[s, i - 1] * mu
+            done = True
+            for i in range(n):
+                if not (abs(j_out[s, i] - j_old[i]) <= tol_rel * scale):
+                    done = False
+            if done or not coupled:
+                break

@@ -44,6 +44,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..units import K_B, Q
+from . import kernels
 from .diodes import BoltzmannDiodes
 from .solvers import maximise_concave
 
@@ -199,6 +200,10 @@ def solve_independent_coupled(jph, j0, vt, k, r=0.0, *, tol_rel=1e-13, max_sweep
     sub-problem is strictly concave (exact Newton); sweeps alternate down (photocurrents)
     and up (prices) until no current moves by more than ``tol_rel`` of the photocurrent.
     Without coupling one sweep gives every junction's own maximum power point.
+
+    Batches of at least ``kernels.MIN_STACKS`` stacks run the same sweeps in the
+    compiled kernel of :mod:`._jit`, one stack at a time (each stops at its own
+    convergence); the numpy sweeps stay the reference (``tests/test_kernels.py``).
     """
     jph = np.asarray(jph, float)
     m, n = jph.shape
@@ -206,6 +211,21 @@ def solve_independent_coupled(jph, j0, vt, k, r=0.0, *, tol_rel=1e-13, max_sweep
     vt = np.broadcast_to(vt, jph.shape)
     r = np.broadcast_to(np.asarray(r, float), jph.shape)
     k = np.broadcast_to(k, jph.shape)
+    if kernels.for_batch(m):
+        j, jeff = np.empty((m, n)), np.empty((m, n))
+        c = [np.ascontiguousarray(x, dtype=float) for x in (jph, j0, vt, k, r)]
+        kernels.jit().independent_coupled(*c, float(tol_rel), int(max_sweeps), j, jeff)
+    else:
+        j, jeff = _sweeps(jph, j0, vt, k, r, tol_rel, max_sweeps)
+    with np.errstate(divide="ignore"):
+        v = vt * (np.log(jeff + j0 - j) - np.log(j0))
+    return j, v, jeff
+
+
+def _sweeps(jph, j0, vt, k, r, tol_rel, max_sweeps):
+    """The block coordinate sweeps of :func:`solve_independent_coupled` on whole arrays
+    (the numpy reference of the compiled kernel); returns ``(j, j_eff)``."""
+    m, n = jph.shape
     price = np.zeros((m, n))  # k_i mu_{i+1}
     j = 0.9 * jph
     jeff = jph.copy()
@@ -229,6 +249,4 @@ def solve_independent_coupled(jph, j0, vt, k, r=0.0, *, tol_rel=1e-13, max_sweep
             price[:, i - 1] = k[:, i - 1] * mu
         if np.all(np.abs(j - j_old) <= tol_rel * scale) or not np.any(k):
             break
-    with np.errstate(divide="ignore"):
-        v = vt * (np.log(jeff + j0 - j) - np.log(j0))
-    return j, v, jeff
+    return j, jeff

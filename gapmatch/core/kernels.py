@@ -39,6 +39,7 @@ __all__ = [
     "everywhere",
     "min_stacks",
     "for_diodes",
+    "for_batch",
     "jit",
 ]
 
@@ -113,6 +114,12 @@ def jit():
 
         _state["module"] = _jit
     return _state["module"]
+
+
+def for_batch(m: int) -> bool:
+    """Whether a batch of ``m`` stacks of a path without diode objects (the coupled
+    independent solve of :mod:`.coupling`) runs on its compiled kernel."""
+    return available() and m >= _min_stacks()
 
 
 def for_diodes(d, connection: str):
