@@ -44,6 +44,12 @@ spectrum has no nodes, and every junction's gap inserted as a node (with nodes g
 emission centroid), so a step absorber reproduces the ideal engine to rounding error,
 and the bin powers add up to the incident power exactly.
 
+Batches of at least ``kernels.MIN_STACKS / OPTICS_WEIGHT`` stacks (64 by default) of the
+built-in absorber classes run the same quadrature in the compiled kernel of
+:mod:`._optics_jit`, one stack at a time over the shared grid (no per-stack sort, buffers
+reused); the numpy code below stays the reference (1e-12 relative,
+``tests/test_kernels.py``).
+
 References
 ----------
 .. [1] E. Yablonovitch, "Statistical ray optics", J. Opt. Soc. Am. 72, 899 (1982)
@@ -63,6 +69,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..units import EV, K_B, C, H, Q
+from . import kernels
 from .diodes import ln_j0_radiative
 from .planck import PLANCK_PREFACTOR
 from .spectra import Spectrum, TabulatedSpectrum
@@ -273,6 +280,96 @@ def step_optics(gaps_J, spectrum: Spectrum) -> Optics:  # noqa: N803
     return Optics(phi, p, below, np.zeros_like(below), None)
 
 
+#: cost of a finite-absorber stack in ideal stacks, for the compiled-kernel threshold
+#: (:func:`.kernels.for_batch`): the optics of one stack sum over ~2,000 energy bins
+OPTICS_WEIGHT = 64
+_KERNEL_TRAPPING = {"single": 0, "double": 1, "lambertian": 2}
+
+
+def _kernel_params(absorbers, trapping, nidx):
+    """Per-junction absorber arrays of the compiled optics, or ``None`` when a junction
+    has an absorber or light trapping the kernel does not implement."""
+    n = len(absorbers)
+    kind = np.zeros(n, np.int64)
+    trap = np.zeros(n, np.int64)
+    alpha0, power, urbach, join, a_join = (np.zeros(n) for _ in range(5))
+    tab_lo, tab_hi = np.zeros(n, np.int64), np.ones(n, np.int64)
+    tabs_e, tabs_a, used = [np.zeros(1)], [np.zeros(1)], 1
+    for i, ab in enumerate(absorbers):
+        if trapping[i] not in _KERNEL_TRAPPING:
+            return None
+        trap[i] = _KERNEL_TRAPPING[trapping[i]]
+        if ab is None:
+            continue
+        if type(ab) in (DirectGapAbsorption, IndirectGapAbsorption):
+            kind[i] = 1
+            alpha0[i], power[i], urbach[i] = ab.alpha0_per_m, ab._power, ab.urbach_J
+            join[i] = ab._join()
+            a_join[i] = ab.alpha0_per_m * (join[i] / EV) ** ab._power
+        elif type(ab) is TabulatedAbsorption:
+            kind[i] = 2
+            e = np.ascontiguousarray(ab.energy_J, dtype=float)
+            tabs_e.append(e)
+            tabs_a.append(np.ascontiguousarray(ab.alpha_per_m, dtype=float))
+            tab_lo[i], tab_hi[i] = used, used + e.size
+            used += e.size
+        else:
+            return None
+    return dict(
+        kind=kind,
+        alpha0=alpha0,
+        power=power,
+        urbach=urbach,
+        join=join,
+        a_join=a_join,
+        tab_e=np.concatenate(tabs_e),
+        tab_a=np.concatenate(tabs_a),
+        tab_lo=tab_lo,
+        tab_hi=tab_hi,
+        trap=trap,
+        nidx=np.ascontiguousarray(nidx, dtype=float),
+    )
+
+
+def _optics_kernel(g, t, kt, d, floors, base, f_base, p_base, extra, spectrum, params):
+    """:func:`stack_optics` by the compiled kernel of :mod:`._optics_jit` (same
+    quadrature; the stack's own nodes sorted here, the shared ones already are)."""
+    m, n = g.shape
+    extra = np.sort(extra, axis=1)
+    f_extra = np.ascontiguousarray(spectrum.photon_flux_above(extra))
+    p_extra = np.ascontiguousarray(spectrum.power_above(extra))
+    phi_abs, p_abs, j0 = np.empty((m, n)), np.empty((m, n)), np.empty((m, n))
+    below, above = np.empty(m), np.empty(m)
+
+    def c(x):
+        return np.ascontiguousarray(np.broadcast_to(x, (m, n)), dtype=float)
+
+    kernels.optics_jit().stack_optics(
+        np.ascontiguousarray(base),
+        np.ascontiguousarray(f_base, dtype=float),
+        np.ascontiguousarray(p_base, dtype=float),
+        extra,
+        f_extra,
+        p_extra,
+        c(g),
+        c(kt),
+        c(d),
+        c(floors),
+        *params.values(),
+        float(spectrum.total_irradiance_W_m2),
+        float(Q * PLANCK_PREFACTOR),
+        phi_abs,
+        p_abs,
+        j0,
+        below,
+        above,
+    )
+    step = params["kind"] == 0
+    if step.any():  # step absorbers: the closed-form radiative saturation current
+        j0[:, step] = np.exp(ln_j0_radiative(g[:, step], t[:, step], 1.0))
+    return Optics(phi_abs, p_abs, below, above, j0)
+
+
 #: nodes inserted above each gap, in units of the fill spacing kT/15: uniform in
 #: sqrt(E - E_g) up to 8 spacings, where a square-root edge is not smooth in E
 _EDGE_GRADING = tuple(8.0 * (j / 16.0) ** 2 for j in range(1, 17))
@@ -357,6 +454,9 @@ def stack_optics(
     # per-stack grid: the base nodes with the stack's gaps inserted, and graded nodes
     # just above each gap where a square-root edge varies fastest
     extra = np.concatenate([g] + [g + step * f for f in _EDGE_GRADING], axis=1)
+    params = _kernel_params(absorbers, trapping, nidx)
+    if params is not None and kernels.for_batch(m, OPTICS_WEIGHT):
+        return _optics_kernel(g, t, kt, d, floors, base, f_base, p_base, extra, spectrum, params)
     edges = np.concatenate([np.broadcast_to(base, (m, base.size)), extra], axis=1)
     order = np.argsort(edges, axis=1, kind="stable")
     edges = np.take_along_axis(edges, order, axis=1)

@@ -116,10 +116,21 @@ def jit():
     return _state["module"]
 
 
-def for_batch(m: int) -> bool:
+def for_batch(m: int, weight: int = 1) -> bool:
     """Whether a batch of ``m`` stacks of a path without diode objects (the coupled
-    independent solve of :mod:`.coupling`) runs on its compiled kernel."""
-    return available() and m >= _min_stacks()
+    independent solve of :mod:`.coupling`, the optics of finite absorbers) runs on its
+    compiled kernel. ``weight`` is the path's cost per stack in ideal stacks, rounded
+    down to a power of two: the threshold is on ``m * weight``."""
+    return available() and m * weight >= _min_stacks()
+
+
+def optics_jit():
+    """The compiled optics of finite absorbers (:mod:`._optics_jit`; imports numba)."""
+    if _state.get("optics") is None:
+        from . import _optics_jit
+
+        _state["optics"] = _optics_jit
+    return _state["optics"]
 
 
 def for_diodes(d, connection: str):
