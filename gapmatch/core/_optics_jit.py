@@ -13,7 +13,12 @@ differ, both below rounding of the result:
   ``sum_{bins above} a dG <= G(E_b)`` (``a <= 1``; ``G`` the Boltzmann emission above the
   bin's lower node, exact by telescoping) is below ``EMISSION_RTOL`` of the sum so far.
 
-Buffers are allocated once per call (a work unit of stacks) and reused for every stack.
+The bins of the shared grid (centroids, flux and power, and their Boltzmann emission at
+the temperature of the call's first absorbing junction) are computed once per call (a
+work unit of stacks); a stack copies them and computes only the few bins its own nodes
+split. Buffers are allocated once per call and reused for every stack. What remains per
+stack is one absorption coefficient and one exponential per bin and absorbing junction
+for the incident light, and the same for the bins that carry the junction's emission.
 
 Absorber parameters come as per-junction arrays:
 
@@ -88,13 +93,72 @@ def _alpha(kind, alpha0, power, urbach, join, a_join, tab_e, tab_a, lo, hi, e, g
 
 @njit(**_INLINE)
 def _absorptance(ad, trap, n2):
-    """Absorptance of a slab of optical thickness ``ad`` (as absorption.absorptance)."""
+    """Absorptance of a slab of optical thickness ``ad`` (as absorption.absorptance).
+
+    ``1 - exp(-y)`` replaces ``-expm1(-y)`` where ``y > 1/2``: there ``exp(-y) < 0.61``
+    and the difference is exact to 2 units in the last place, at half the cost of
+    ``expm1`` (which stays where ``y`` is small and the difference would cancel)."""
     if trap == 0:
-        return -math.expm1(-ad)
-    if trap == 1:
-        return -math.expm1(-2.0 * ad)
-    x = math.exp(-4.0 * ad)
-    return -math.expm1(-4.0 * ad) / (1.0 - (1.0 - 1.0 / n2) * x)
+        y = ad
+    elif trap == 1:
+        y = 2.0 * ad
+    else:
+        y = 4.0 * ad
+    if y > 0.5:
+        x = math.exp(-y)
+        a = 1.0 - x
+    else:
+        a = -math.expm1(-y)
+        if trap != 2:
+            return a
+        x = math.exp(-y)
+    if trap != 2:
+        return a
+    return a / (1.0 - (1.0 - 1.0 / n2) * x)
+
+
+@njit(**_INLINE)
+def _bin(e0, f0, p0, e1, f1, p1, last):
+    """Bin ``[e0, e1)`` (``last``: the open bin above ``e0``) from its nodes' energies
+    [J], photon flux and power above them: ``(mid, dphi, dpow, lo, hi, e_sun)`` with
+    the centroid ``e_sun`` of the incident photons kept inside ``[lo, hi]``."""
+    if last:
+        mid = e0
+        dphi = f0
+        dpow = p0
+        lo = e0 + 0.0
+        hi = math.inf
+    else:
+        mid = 0.5 * (e0 + e1)
+        dphi = f0 - f1
+        dpow = p0 - p1
+        w = e1 - e0
+        lo = e0 + 0.05 * w
+        hi = e0 + 0.95 * w
+    es = dpow / dphi if dphi > 0 else mid
+    return mid, dphi, dpow, lo, hi, min(max(es, lo), hi)
+
+
+@njit(**_INLINE)
+def _node_emission(e, kt):
+    """``e^-x (x^2 + 2x + 2)`` and ``e^-x (x^3 + 3x^2 + 6x + 6)`` at ``x = e / kT``: the
+    Boltzmann photon number and energy emitted above ``e`` (units of ``q g (kT)^3``)."""
+    x = e / kt
+    ex = math.exp(-x)
+    return ex * (x * x + 2.0 * x + 2.0), ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
+
+
+@njit(**_INLINE)
+def _bin_emission(t2a, t3a, t2b, t3b, kt, mid, lo, hi, last):
+    """Emission ``dG`` of a bin and its emission centroid kept inside ``[lo, hi]``."""
+    if last:
+        dg = t2a
+        d3 = t3a
+    else:
+        dg = t2a - t2b
+        d3 = t3a - t3b
+    ee = kt * d3 / dg if dg > 0 else mid
+    return dg, min(max(ee, lo), hi)
 
 
 @njit(**_JIT)
@@ -137,11 +201,46 @@ def stack_optics(
     stack's own nodes, ascending per row, with theirs. ``kt`` [J], ``thick`` [m] and
     ``floors`` [J] are ``(M, N)``; ``j0_prefactor`` is ``q g`` of the generalised Planck
     law [A m^-2 J^-3].
+
+    The bins of the shared grid, and their emission at the first absorbing junction's
+    temperature of the first stack, are computed once per call; a stack copies them and
+    computes only the bins its own nodes split.
     """
     m, n = gaps.shape
     nb = base.size
     nx = extra.shape[1]
     L = nb + nx
+    # --- shared bins, once per call
+    b_mid = np.empty(nb)
+    b_dphi = np.empty(nb)
+    b_dpow = np.empty(nb)
+    b_lo = np.empty(nb)
+    b_hi = np.empty(nb)
+    b_sun = np.empty(nb)
+    for b in range(nb):
+        last = b == nb - 1
+        b1 = b if last else b + 1
+        r = _bin(base[b], f_base[b], p_base[b], base[b1], f_base[b1], p_base[b1], last)
+        b_mid[b], b_dphi[b], b_dpow[b], b_lo[b], b_hi[b], b_sun[b] = r
+    kt_ref = -1.0
+    for i in range(n):
+        if kind[i] != 0:
+            kt_ref = kt[0, i]
+            break
+    b_t2 = np.empty(nb)
+    b_t3 = np.empty(nb)
+    b_dg = np.empty(nb)
+    b_em = np.empty(nb)
+    if kt_ref > 0:
+        for b in range(nb):
+            b_t2[b], b_t3[b] = _node_emission(base[b], kt_ref)
+        for b in range(nb):
+            last = b == nb - 1
+            b1 = b if last else b + 1
+            b_dg[b], b_em[b] = _bin_emission(
+                b_t2[b], b_t3[b], b_t2[b1], b_t3[b1], kt_ref, b_mid[b], b_lo[b], b_hi[b], last
+            )
+    # --- per-stack buffers, reused
     edges = np.empty(L)
     fe = np.empty(L)
     pe = np.empty(L)
@@ -149,8 +248,6 @@ def stack_optics(
     dphi = np.empty(L)
     dpow = np.empty(L)
     e_sun = np.empty(L)
-    lo_c = np.empty(L)
-    hi_c = np.empty(L)
     trans = np.empty(L)
     t2 = np.empty(L)
     t3 = np.empty(L)
@@ -161,7 +258,13 @@ def stack_optics(
     bin_stamp = np.zeros(L, dtype=np.int64)
     stamp = 0
     for s in range(m):
-        # merge the shared nodes with the stack's (stable: a shared node first on a tie)
+        stamp += 1
+        use_ref = False
+        for i in range(n):
+            if kind[i] != 0 and kt[s, i] == kt_ref:
+                use_ref = True
+        # merge the shared nodes with the stack's (stable: a shared node first on a tie);
+        # q0_b[b] below is where shared node b landed
         ib = 0
         ix = 0
         for q in range(L):
@@ -169,39 +272,61 @@ def stack_optics(
                 edges[q] = base[ib]
                 fe[q] = f_base[ib]
                 pe[q] = p_base[ib]
+                # a shared bin no node of the stack splits: copy it
+                whole = ib == nb - 1 and ix >= nx
+                if ib < nb - 1:
+                    whole = ix >= nx or extra[s, ix] >= base[ib + 1]
+                if whole:
+                    mids[q] = b_mid[ib]
+                    dphi[q] = b_dphi[ib]
+                    dpow[q] = b_dpow[ib]
+                    e_sun[q] = b_sun[ib]
+                    if use_ref:
+                        t2[q] = b_t2[ib]
+                        t3[q] = b_t3[ib]
+                        dg[q] = b_dg[ib]
+                        e_em[q] = b_em[ib]
+                        node_stamp[q] = stamp
+                        bin_stamp[q] = stamp
+                else:
+                    mids[q] = -1.0  # split: computed below
+                    if use_ref:
+                        t2[q] = b_t2[ib]
+                        t3[q] = b_t3[ib]
+                        node_stamp[q] = stamp
                 ib += 1
             else:
                 edges[q] = extra[s, ix]
                 fe[q] = f_extra[s, ix]
                 pe[q] = p_extra[s, ix]
+                mids[q] = -1.0
                 ix += 1
-        # bins [edges[q], edges[q + 1]) and the open bin above the top node
+        # bins the stack's nodes split (and the bins between its own nodes)
         for q in range(L):
-            if q < L - 1:
-                mids[q] = 0.5 * (edges[q] + edges[q + 1])
-                dphi[q] = fe[q] - fe[q + 1]
-                dpow[q] = pe[q] - pe[q + 1]
-                width = edges[q + 1] - edges[q]
-                lo_c[q] = edges[q] + 0.05 * width
-                hi_c[q] = edges[q] + 0.95 * width
-            else:
-                mids[q] = edges[q]
-                dphi[q] = fe[q]
-                dpow[q] = pe[q]
-                lo_c[q] = edges[q] + 0.0
-                hi_c[q] = math.inf
-            es = dpow[q] / dphi[q] if dphi[q] > 0 else mids[q]
-            e_sun[q] = min(max(es, lo_c[q]), hi_c[q])
+            if mids[q] < 0.0:
+                last = q == L - 1
+                q1 = q if last else q + 1
+                r = _bin(edges[q], fe[q], pe[q], edges[q1], fe[q1], pe[q1], last)
+                mids[q], dphi[q], dpow[q], _lo, _hi, e_sun[q] = r
             trans[q] = 1.0
-        kt_cached = -1.0
+        kt_cached = kt_ref if use_ref else -1.0
         for i in range(n):
             g = gaps[s, i]
             k_i = kind[i]
             # first bin that can absorb: its upper node lies above the absorption floor
-            q0 = 0
             fl = floors[s, i]
-            while q0 < L - 1 and edges[q0 + 1] <= fl:
-                q0 += 1
+            a = 0
+            b = L - 1
+            if edges[1] > fl or L < 2:
+                q0 = 0
+            else:  # edges[a + 1] <= fl < edges[b + 1] (edges[L] = inf)
+                while b - a > 1:
+                    c = (a + b) // 2
+                    if edges[c + 1] <= fl:
+                        a = c
+                    else:
+                        b = c
+                q0 = b
             if k_i == 0:
                 phi = 0.0
                 pw = 0.0
@@ -228,27 +353,26 @@ def stack_optics(
             if kti != kt_cached:  # emission tables of another temperature: start afresh
                 kt_cached = kti
                 stamp += 1
-            # emission: exact Boltzmann emission of each bin, absorptance at its centroid;
-            # tables filled only for the bins a junction reaches, shared with the next
-            # junction of the same temperature
+            # emission: exact Boltzmann emission of each bin, absorptance at its centroid
             acc = 0.0
             for q in range(q0, L):
                 if bin_stamp[q] != stamp:
-                    for r in (q, q + 1):
-                        if r < L and node_stamp[r] != stamp:
-                            x = edges[r] / kti
-                            ex = math.exp(-x)
-                            t2[r] = ex * (x * x + 2.0 * x + 2.0)
-                            t3[r] = ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
-                            node_stamp[r] = stamp
-                    if q < L - 1:
-                        dg[q] = t2[q] - t2[q + 1]
-                        d3 = t3[q] - t3[q + 1]
+                    last = q == L - 1
+                    q1 = q if last else q + 1
+                    for r_ in (q, q1):
+                        if node_stamp[r_] != stamp:
+                            t2[r_], t3[r_] = _node_emission(edges[r_], kti)
+                            node_stamp[r_] = stamp
+                    if last:
+                        blo = edges[q] + 0.0
+                        bhi = math.inf
                     else:
-                        dg[q] = t2[q]
-                        d3 = t3[q]
-                    ee = kti * d3 / dg[q] if dg[q] > 0 else mids[q]
-                    e_em[q] = min(max(ee, lo_c[q]), hi_c[q])
+                        w = edges[q1] - edges[q]
+                        blo = edges[q] + 0.05 * w
+                        bhi = edges[q] + 0.95 * w
+                    dg[q], e_em[q] = _bin_emission(
+                        t2[q], t3[q], t2[q1], t3[q1], kti, mids[q], blo, bhi, last
+                    )
                     bin_stamp[q] = stamp
                 if acc > 0.0 and t2[q] <= EMISSION_RTOL * acc:
                     break
