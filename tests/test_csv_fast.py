@@ -111,3 +111,20 @@ def test_map_command_csv_identical_to_pandas(tmp_path):
     assert main(["map", "--step", "0.05", "--out", str(out)]) == 0
     frame = compute_map(step_eV=0.05).to_frame()
     assert (tmp_path / "m_map.csv").read_text() == _pandas(frame)
+
+
+def test_formatter_prefetch_only_for_large_tables(monkeypatch):
+    # the map command loads the compiled formatter in the background only for tables
+    # that will use it; the text is the same with or without the prefetch
+    from gapmatch.io.csv_fast import prefetch_compiled
+
+    assert prefetch_compiled(1000) is None  # Python formats small tables
+    monkeypatch.setenv("GAPMATCH_NO_JIT", "1")
+    assert prefetch_compiled(10**7) is None  # no compiled formatter at all
+    monkeypatch.delenv("GAPMATCH_NO_JIT")
+    t = prefetch_compiled(10**7)
+    if t is not None:  # numba installed
+        t.join(timeout=120)
+        assert not t.is_alive()
+    cols = {"x": np.linspace(0.0, 1.0, 300_000), "y": np.linspace(-5.0, 5.0, 300_000)}
+    assert columns_csv(cols) == _pandas(pd.DataFrame(cols))

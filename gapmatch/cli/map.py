@@ -120,6 +120,7 @@ def run(args: argparse.Namespace) -> int:
         return run_site_map(args)
     n = len(args.stack) if args.stack else 2
     kw = condition_kwargs(args, n)
+    loading = _prefetch_formatter(args) if args.out else None
     if args.cluster:
         from ..cluster import connect
 
@@ -137,6 +138,8 @@ def run(args: argparse.Namespace) -> int:
         text = dumps(summary, what=f"{prefix}_summary.json", indent=2)
         from ..io.csv_fast import columns_csv
 
+        if loading is not None:
+            loading.join()
         write_atomic(f"{prefix}_map.csv", columns_csv(columns))
         write_atomic(f"{prefix}_summary.json", text)
         print(f"wrote {prefix}_map.csv and {prefix}_summary.json", file=sys.stderr)
@@ -145,6 +148,20 @@ def run(args: argparse.Namespace) -> int:
         return 0
     print(format_summary(summary))
     return 0
+
+
+def _prefetch_formatter(args: argparse.Namespace):
+    """Start loading the compiled CSV formatter when the map is large enough to use it
+    (an estimate from the ranges and the step: points times about ten columns)."""
+    from ..io.csv_fast import prefetch_compiled
+
+    try:
+        x0, x1 = args.x_range
+        y0, y1 = args.y_range if args.y_range else args.x_range
+        points = (int((x1 - x0) / args.step) + 1) * (int((y1 - y0) / args.step) + 1)
+    except (TypeError, ValueError, ZeroDivisionError):
+        return None
+    return prefetch_compiled(10 * points)
 
 
 def _compute(args: argparse.Namespace, kw: dict, client):

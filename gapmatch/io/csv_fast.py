@@ -20,7 +20,7 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-__all__ = ["columns_csv", "frame_csv"]
+__all__ = ["columns_csv", "frame_csv", "prefetch_compiled"]
 
 #: rows formatted per compiled pass (bounds the scratch memory to about 12 MB at 8 columns)
 _CHUNK_ROWS = 65536
@@ -114,6 +114,25 @@ def columns_csv(
 #: numba's import and first call cost about 0.6 s, which Python's ``%`` spends on about
 #: 2 million cells
 _COMPILED_MIN_CELLS = 200_000
+
+
+def prefetch_compiled(cells: int):
+    """Load the compiled formatter on a background thread, for a table of ``cells``
+    cells that will be written later (the map command starts it before computing, so
+    numba's import and the load of the cached kernels overlap the numpy work, which
+    releases the GIL). Returns the started thread, or ``None`` when the table would not
+    use the compiled formatter; join it before :func:`columns_csv` or let that call
+    wait on the import lock."""
+    if cells < _COMPILED_MIN_CELLS or not _compiled(cells):
+        return None
+    import threading
+
+    def load():
+        _compiled_block([np.zeros(1)], 0, 1, "%.6g")
+
+    t = threading.Thread(target=load, name="csv-formatter-load", daemon=True)
+    t.start()
+    return t
 
 
 def _compiled(cells: int) -> bool:
