@@ -130,7 +130,7 @@ def prefetch_compiled(cells: int):
     def load():
         _compiled_block([np.zeros(1)], 0, 1, "%.6g")
 
-    t = threading.Thread(target=load, name="csv-formatter-load", daemon=True)
+    t = threading.Thread(target=load, name="csv-formatter-load")
     t.start()
     return t
 
