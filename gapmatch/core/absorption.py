@@ -280,8 +280,10 @@ def step_optics(gaps_J, spectrum: Spectrum) -> Optics:  # noqa: N803
     return Optics(phi, p, below, np.zeros_like(below), None)
 
 
-#: cost of a finite-absorber stack in ideal stacks, for the compiled-kernel threshold
-#: (:func:`.kernels.for_batch`): the optics of one stack sum over ~2,000 energy bins
+#: how many ideal stacks a finite-absorber stack counts as against the compiled-kernel
+#: threshold (:func:`.kernels.for_batch`); its optics sum over ~2,000 energy bins and cost
+#: about 100 ideal stacks (``benchmarks/paths.py``), so 64 stacks already pay for
+#: numba's import
 OPTICS_WEIGHT = 64
 _KERNEL_TRAPPING = {"single": 0, "double": 1, "lambertian": 2}
 

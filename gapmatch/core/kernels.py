@@ -1,4 +1,9 @@
-"""Dispatch to the compiled per-stack kernels of the ideal step-absorber engine.
+"""Dispatch to the compiled per-stack kernels of the engine.
+
+Besides the ideal step-absorber connection solvers described below, two paths without
+diode objects ask :func:`for_batch`: the coupled independent solve of :mod:`.coupling`
+(kernel in :mod:`._jit`) and the finite-absorber optics of :mod:`.absorption` (kernel in
+:mod:`._optics_jit`, loaded by :func:`optics_jit`).
 
 The connection solvers of :mod:`.connections` call :func:`for_diodes`; when it returns
 parameters, they run the compiled kernel of :mod:`._jit` (numba) on them, otherwise their
@@ -41,6 +46,7 @@ __all__ = [
     "for_diodes",
     "for_batch",
     "jit",
+    "optics_jit",
 ]
 
 #: smallest batch (stacks) solved by the compiled kernels unless the environment says
@@ -119,8 +125,8 @@ def jit():
 def for_batch(m: int, weight: int = 1) -> bool:
     """Whether a batch of ``m`` stacks of a path without diode objects (the coupled
     independent solve of :mod:`.coupling`, the optics of finite absorbers) runs on its
-    compiled kernel. ``weight`` is the path's cost per stack in ideal stacks, rounded
-    down to a power of two: the threshold is on ``m * weight``."""
+    compiled kernel. ``weight``: how many ideal stacks one stack of the path counts as
+    against the threshold (``m * weight >= MIN_STACKS``)."""
     return available() and m * weight >= _min_stacks()
 
 
