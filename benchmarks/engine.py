@@ -18,6 +18,9 @@ on the maximum power to 1e-9 relative, or the script fails.
 The compiled kernels' first-compile time (empty cache, fresh process) and the cached load
 time (second fresh process) are measured in subprocesses and printed.
 
+Then the engine again after ``gapmatch.retain_freed_memory()`` (glibc keeps freed memory
+for reuse, as the command line runs; a process-wide setting, so measured last).
+
 The last line is exactly ``stacks_per_s=<float> reference_per_s=<float> ratio=<float>``:
 ``stacks_per_s`` is the 1-thread engine, ``reference_per_s`` the *faster* reference.
 
@@ -318,6 +321,21 @@ def main(argv=None) -> int:
 
     x = rate["engine-1-thread"]
     y = max(rate["reference-math"], rate["reference-numpy"])
+    # last: the same engine with freed memory kept for reuse, as the command line runs
+    # it (a process-wide setting that cannot be undone, hence after everything else)
+    if gm.retain_freed_memory():
+        kept = timed_rounds(
+            {"engine-1-thread": engine(1), "engine-all-threads": engine(None)}, args.repeats
+        )
+        for name, ts in kept.items():
+            r = args.stacks / statistics.median(ts)
+            print(
+                f"{name}, freed memory retained (gapmatch.retain_freed_memory, as the "
+                f"command line): median {statistics.median(ts):.4f} s -> {r:.4g} stacks/s, "
+                f"{r / y:.1f}x the faster reference"
+            )
+    else:
+        print("freed memory retained: not available here (no glibc mallopt)")
     print(f"stacks_per_s={x:.1f} reference_per_s={y:.1f} ratio={x / y:.1f}")
     return 0
 

@@ -15,6 +15,8 @@ Illumination, CellConditions, Stack
     result carries them.
 standard_spectrum, get_spectrum, read_spectrum_csv
     Spectra (ASTM G173-03 through pvlib, blackbody sun, CSV files).
+retain_freed_memory
+    Keep freed memory for reuse (glibc): large batches run up to twice as fast.
 
 The names are loaded on first use, so that ``import gapmatch`` (and the command line's
 ``--help``) stay fast.
@@ -43,6 +45,7 @@ _EXPORTS = {
     "standard_spectrum": "io.spectra",
     "get_spectrum": "io.spectra",
     "read_spectrum_csv": "io.spectra",
+    "retain_freed_memory": "runtime",
 }
 
 __all__ = [
@@ -63,6 +66,7 @@ __all__ = [
     "standard_spectrum",
     "get_spectrum",
     "read_spectrum_csv",
+    "retain_freed_memory",
 ]
 assert set(__all__) == {"__version__", *_EXPORTS}
 
@@ -75,6 +79,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from .limits import check_gaps
     from .model import CellConditions, Illumination, Stack
     from .results import BatchResult, Conditions
+    from .runtime import retain_freed_memory
 
 
 def _version() -> str:

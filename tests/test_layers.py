@@ -25,6 +25,7 @@ LAYERS = {
     "errors": 0,
     "units": 0,
     "schema": 0,
+    "runtime": 0,  # process settings (the allocator), no physics
     "core": 1,
     "io": 2,
     "cluster": 2,  # sending chunks of work to Dask: knows no physics

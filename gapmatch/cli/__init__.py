@@ -246,6 +246,10 @@ def main(argv: list[str] | None = None) -> int:
     if not getattr(args, "func", None):
         parser.print_help()
         return 2
+    if os.environ.get("GAPMATCH_RETAIN_MEMORY", "1") not in ("", "0"):
+        from ..runtime import retain_freed_memory
+
+        retain_freed_memory()  # large batches: no page faults on reused temporaries
     try:
         status = int(args.func(args) or 0)
         sys.stdout.flush()
