@@ -5,10 +5,12 @@ Do not import this module directly: :func:`.absorption.stack_optics` reaches it 
 stack at a time, the quadrature the numpy code of :func:`.absorption.stack_optics` runs on
 whole ``(M, bins)`` arrays: the same nodes (the shared base grid merged with the stack's
 own gap and edge nodes, which arrive sorted, so no per-stack sort of the base grid), the
-same bin centroids, absorptances and exact Boltzmann emission of each bin. Two things
-differ, both below rounding of the result:
+same bin centroids, absorptances and exact Boltzmann emission of each bin. Three things
+differ, all below rounding of the result:
 
 * sums run in a different order (a few units in the last place);
+* an absorptance ``1 - e^-y`` is taken as ``1 - exp(-y)`` where ``y > 1/2`` (exact to
+  two units in the last place there) and as ``-expm1(-y)`` below;
 * a junction's emission sum stops at the first bin whose upper tail bound
   ``sum_{bins above} a dG <= G(E_b)`` (``a <= 1``; ``G`` the Boltzmann emission above the
   bin's lower node, exact by telescoping) is below ``EMISSION_RTOL`` of the sum so far.
