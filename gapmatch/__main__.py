@@ -1,7 +1,5 @@
 """``python -m gapmatch`` runs the command-line interface."""
 
-import sys
+from .cli import entry
 
-from .cli import main
-
-sys.exit(main())
+entry()

@@ -241,3 +241,32 @@ def test_no_json_dump_in_the_cli_allows_nan():
     for path in (ROOT / "gapmatch" / "cli").glob("*.py"):
         text = path.read_text("utf-8")
         assert "json.dumps(" not in text and "json.dump(" not in text, path.name
+
+
+def _python_m(argv, tmp_path, **env):
+    proc = subprocess.run(
+        [sys.executable, "-m", "gapmatch", *argv],
+        capture_output=True,
+        text=True,
+        cwd=tmp_path,
+        env=dict(os.environ, PYTHONPATH=str(ROOT), **env),
+        timeout=600,
+    )
+    return proc.returncode, proc.stdout, proc.stderr
+
+
+def test_fast_exit_after_the_compiled_kernels_keeps_every_output(tmp_path):
+    # the map command ends its process with os._exit once numba is loaded (no LLVM
+    # teardown); its files and its printed summary must be complete all the same.
+    # GAPMATCH_JIT_MIN_STACKS=1 makes this small voltage-matched map load the kernels.
+    argv = ["map", "--step", "0.1", "--connections", "voltage-matched", "--out", "m"]
+    status, out, err = _python_m(argv, tmp_path, GAPMATCH_JIT_MIN_STACKS="1")
+    assert status == 0, err
+    assert out.rstrip().endswith("not ratings.")  # the last line of the summary
+    summary = json.loads((tmp_path / "m_summary.json").read_text())
+    assert summary["grid"]["nx"] == 21 and summary["grid"]["ny"] == 21
+    rows = (tmp_path / "m_map.csv").read_text().splitlines()
+    assert len(rows) == 1 + 21 * 21
+    # a command that fails still exits normally with status 2 and its one-line error
+    status, _, err = _python_m(["map", "--x-gap-range", "2.5", "0.5"], tmp_path)
+    assert status == 2 and "--x-gap-range" in err and "Traceback" not in err
