@@ -248,6 +248,21 @@ def test_results_do_not_depend_on_threads():
             assert np.array_equal(getattr(one.op, f), getattr(whole.op, f), equal_nan=True)
 
 
+@needs_jit
+def test_thresholds_of_the_paths_without_diode_objects():
+    # outside these tests the kernels start at MIN_STACKS ideal stacks; a finite-absorber
+    # stack counts OPTICS_WEIGHT of them (64 stacks of it use the compiled optics)
+    from gapmatch.core.absorption import OPTICS_WEIGHT
+
+    with kernels.min_stacks(kernels.MIN_STACKS):
+        assert kernels.for_batch(kernels.MIN_STACKS)
+        assert not kernels.for_batch(kernels.MIN_STACKS - 1)
+        k = kernels.MIN_STACKS // OPTICS_WEIGHT
+        assert kernels.for_batch(k, OPTICS_WEIGHT) and not kernels.for_batch(k - 1, OPTICS_WEIGHT)
+    with kernels.disabled():
+        assert not kernels.for_batch(10**9, OPTICS_WEIGHT)
+
+
 def test_env_var_disables_kernels(monkeypatch):
     monkeypatch.setenv("GAPMATCH_NO_JIT", "1")
     assert not kernels.available()
