@@ -198,6 +198,24 @@ def _voc(model, jph, vt, a, b, c, j0b, vup):
     return _voltage(model, jph, vt, a, b, c, j0b, vup, 0.0, math.nan)
 
 
+@njit(**_INLINE)
+def _newton_step(x, g, h, lo, hi, scale):
+    """One step of :func:`.solvers.maximise_concave` on a scalar: tighten the bracket
+    ``[lo, hi]`` by the sign of the derivative ``g``, take the Newton step ``-g / h``
+    (bisect where it would leave the bracket), and say whether the iteration is done
+    (step below ``XTOL_REL * scale`` plus four units in the last place, ``g == 0`` or
+    the bracket that narrow). Returns ``(x, lo, hi, done)``."""
+    if g > 0:
+        lo = x
+    else:
+        hi = x
+    xn = x - g / h
+    if not (xn >= lo and xn <= hi):
+        xn = 0.5 * (lo + hi)
+    tol = XTOL_REL * scale + 4.0 * np.spacing(abs(xn))
+    return xn, lo, hi, abs(xn - x) <= tol or g == 0 or hi - lo <= tol
+
+
 @njit(**_JIT)
 def _junction_mpp(model, jph, vt, a, b, c, j0b, vup):
     """Maximum power point ``(v, j)`` of one junction alone."""
@@ -214,17 +232,8 @@ def _junction_mpp(model, jph, vt, a, b, c, j0b, vup):
         cur, di, d2i = _iv(model, jph, vt, a, b, c, x)
         g = cur + x * di
         h = 2.0 * di + x * d2i
-        if g > 0:
-            lo = x
-        else:
-            hi = x
-        xn = x - g / h
-        if not (xn >= lo and xn <= hi):
-            xn = 0.5 * (lo + hi)
-        step = abs(xn - x)
-        x = xn
-        tol = XTOL_REL * scale + 4.0 * np.spacing(abs(x))
-        if step <= tol or g == 0 or hi - lo <= tol:
+        x, lo, hi, done = _newton_step(x, g, h, lo, hi, scale)
+        if done:
             break
     cur, _di, _d2 = _iv(model, jph, vt, a, b, c, x)
     return x, cur
@@ -511,17 +520,8 @@ def _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, mode, lo, hi, x0):
     x = min(max(x0, lo), hi)
     for _ in range(200):
         g, h = _vm_eval(model, jph, vt, a, b, c, i, r, w, x, gsat, mode)
-        if g > 0:
-            lo = x
-        else:
-            hi = x
-        xn = x - g / h
-        if not (xn >= lo and xn <= hi):
-            xn = 0.5 * (lo + hi)
-        step = abs(xn - x)
-        x = xn
-        tol = XTOL_REL * scale + 4.0 * np.spacing(abs(x))
-        if step <= tol or g == 0 or hi - lo <= tol:
+        x, lo, hi, done = _newton_step(x, g, h, lo, hi, scale)
+        if done:
             break
     return x
 
@@ -684,17 +684,8 @@ def _mpp_with_price(jeff, j0, vt, r, price, x0):
         w = jeff + j0 - x
         g = vt * (math.log(w) - lnj0) - x * vt / w - 2.0 * r * x - price
         h = -2.0 * vt / w - x * vt / (w * w) - 2.0 * r
-        if g > 0:
-            lo = x
-        else:
-            hi = x
-        xn = x - g / h
-        if not (xn >= lo and xn <= hi):
-            xn = 0.5 * (lo + hi)
-        step = abs(xn - x)
-        x = xn
-        tol = XTOL_REL * scale + 4.0 * np.spacing(abs(x))
-        if step <= tol or g == 0 or hi - lo <= tol:
+        x, lo, hi, done = _newton_step(x, g, h, lo, hi, scale)
+        if done:
             break
     return x
 

@@ -120,6 +120,16 @@ def _absorptance(ad, trap, n2):
 
 
 @njit(**_INLINE)
+def _centroid_bounds(e0, e1, last):
+    """Where a centroid of bin ``[e0, e1)`` is kept: 5 % to 95 % of its width (the open
+    bin above the top node: ``[e0, inf)``)."""
+    if last:
+        return e0 + 0.0, math.inf
+    w = e1 - e0
+    return e0 + 0.05 * w, e0 + 0.95 * w
+
+
+@njit(**_INLINE)
 def _bin(e0, f0, p0, e1, f1, p1, last):
     """Bin ``[e0, e1)`` (``last``: the open bin above ``e0``) from its nodes' energies
     [J], photon flux and power above them: ``(mid, dphi, dpow, lo, hi, e_sun)`` with
@@ -128,15 +138,11 @@ def _bin(e0, f0, p0, e1, f1, p1, last):
         mid = e0
         dphi = f0
         dpow = p0
-        lo = e0 + 0.0
-        hi = math.inf
     else:
         mid = 0.5 * (e0 + e1)
         dphi = f0 - f1
         dpow = p0 - p1
-        w = e1 - e0
-        lo = e0 + 0.05 * w
-        hi = e0 + 0.95 * w
+    lo, hi = _centroid_bounds(e0, e1, last)
     es = dpow / dphi if dphi > 0 else mid
     return mid, dphi, dpow, lo, hi, min(max(es, lo), hi)
 
@@ -365,13 +371,7 @@ def stack_optics(
                         if node_stamp[r_] != stamp:
                             t2[r_], t3[r_] = _node_emission(edges[r_], kti)
                             node_stamp[r_] = stamp
-                    if last:
-                        blo = edges[q] + 0.0
-                        bhi = math.inf
-                    else:
-                        w = edges[q1] - edges[q]
-                        blo = edges[q] + 0.05 * w
-                        bhi = edges[q] + 0.95 * w
+                    blo, bhi = _centroid_bounds(edges[q], edges[q1], last)
                     dg[q], e_em[q] = _bin_emission(
                         t2[q], t3[q], t2[q1], t3[q1], kti, mids[q], blo, bhi, last
                     )

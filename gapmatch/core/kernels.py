@@ -58,7 +58,15 @@ MIN_STACKS = 4096
 #: kernel would only add numba's import to the process
 NUMPY_BY_DEFAULT = frozenset({("boltzmann", "series"), ("boltzmann", "independent")})
 
-_state = {"off": 0, "module": None, "checked": False, "ok": False, "min": None, "all": 0}
+_state = {
+    "off": 0,
+    "module": None,
+    "optics": None,
+    "checked": False,
+    "ok": False,
+    "min": None,
+    "all": 0,
+}
 
 
 def _min_stacks() -> int:
@@ -132,7 +140,7 @@ def for_batch(m: int, weight: int = 1) -> bool:
 
 def optics_jit():
     """The compiled optics of finite absorbers (:mod:`._optics_jit`; imports numba)."""
-    if _state.get("optics") is None:
+    if _state["optics"] is None:
         from . import _optics_jit
 
         _state["optics"] = _optics_jit
