@@ -16,7 +16,7 @@ Illumination, CellConditions, Stack
 standard_spectrum, get_spectrum, read_spectrum_csv
     Spectra (ASTM G173-03 through pvlib, blackbody sun, CSV files).
 retain_freed_memory
-    Keep freed memory for reuse (glibc): large batches run up to twice as fast.
+    Keep freed memory for reuse (glibc): fewer page faults in large batches.
 
 The names are loaded on first use, so that ``import gapmatch`` (and the command line's
 ``--help``) stay fast.

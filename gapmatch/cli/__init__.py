@@ -245,8 +245,7 @@ def entry() -> None:
     closed, stdout and stderr flushed here), the process therefore ends with
     :func:`os._exit`; every other command exits normally.
     """
-    _last["fast_exit"] = False
-    status = main()
+    status = main()  # sets _last["fast_exit"]
     if _last["fast_exit"] and "numba" in sys.modules:
         try:
             sys.stdout.flush()
