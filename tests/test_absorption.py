@@ -302,3 +302,36 @@ def test_alpha_table_must_reach_the_gap(tmp_path, first_nm, gap_eV, refused):
         res = gm.evaluate([1.8, gap_eV], "series", **kw)
         # the junction's V_oc stays below its gap (it was 2.7 V for a table not reaching it)
         assert 0.0 < float(res.solution.voc_junction[0, 1]) < gap_eV
+
+
+@pytest.mark.parametrize("x_a", [0.5, 5.0, 40.0, 80.0, 150.0])
+@pytest.mark.parametrize("h", [1e-9, 1e-6, 1e-3, 0.0999, 0.1, 0.5, 3.0])
+def test_bin_emission_against_mpmath(x_a, h):
+    # Boltzmann emission of one bin [x_a, x_a + h] (units of q g (kT)^3, x = E / kT):
+    # the integrals of x^2 e^-x and x^3 e^-x over the bin, from their antiderivatives
+    # -e^-x (x^2 + 2x + 2) and -e^-x (x^3 + 3x^2 + 6x + 6) evaluated by mpmath at 40
+    # digits (a reference outside the project). In double precision a bin of 1e-9 kT
+    # lost ~1e-7 of its value to cancellation in G(x_a) - G(x_b); the difference form
+    # keeps 1e-13: rounding x = E / kT costs x * 2.2e-16 (3.3e-14 at x = 150), plus the
+    # mild cancellation of the wide-bin form just above h = 0.1 at x = 0.5.
+    import mpmath
+
+    from gapmatch.core.absorption import _bin_emission_differences
+
+    mpmath.mp.dps = 40
+    kt = KT300
+    edges = np.array([x_a * kt, (x_a + h) * kt])
+    dg, dg3, _ = _bin_emission_differences(edges, kt)
+    xa = mpmath.mpf(edges[0]) / mpmath.mpf(kt)
+    xb = mpmath.mpf(edges[1]) / mpmath.mpf(kt)
+
+    def g2(x):
+        return mpmath.exp(-x) * (x * x + 2 * x + 2)
+
+    def g3(x):
+        return mpmath.exp(-x) * (x**3 + 3 * x * x + 6 * x + 6)
+
+    ref2 = g2(xa) - g2(xb)
+    ref3 = g3(xa) - g3(xb)
+    assert abs(dg[0] / float(ref2) - 1) < 1e-13
+    assert abs(dg3[0] / float(ref3) - 1) < 1e-13

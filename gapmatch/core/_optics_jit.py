@@ -51,6 +51,7 @@ import numpy as np
 from numba import njit
 
 from ..units import EV
+from .absorption import NARROW_BIN_KT, NARROW_BIN_TERMS
 
 _JIT = dict(cache=True, nogil=True, error_model="numpy")
 _INLINE = dict(_JIT, inline="always")
@@ -149,22 +150,36 @@ def _bin(e0, f0, p0, e1, f1, p1, last):
 
 @njit(**_INLINE)
 def _node_emission(e, kt):
-    """``e^-x (x^2 + 2x + 2)`` and ``e^-x (x^3 + 3x^2 + 6x + 6)`` at ``x = e / kT``: the
-    Boltzmann photon number and energy emitted above ``e`` (units of ``q g (kT)^3``)."""
+    """``e^-x``, ``e^-x (x^2 + 2x + 2)`` and ``e^-x (x^3 + 3x^2 + 6x + 6)`` at ``x = e / kT``:
+    the Boltzmann photon number and energy emitted above ``e`` (units of ``q g (kT)^3``)."""
     x = e / kt
     ex = math.exp(-x)
-    return ex * (x * x + 2.0 * x + 2.0), ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
+    return ex, ex * (x * x + 2.0 * x + 2.0), ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
 
 
 @njit(**_INLINE)
-def _bin_emission(t2a, t3a, t2b, t3b, kt, mid, lo, hi, last):
-    """Emission ``dG`` of a bin and its emission centroid kept inside ``[lo, hi]``."""
+def _bin_emission(ea, eb, exa, t2a, t3a, t2b, t3b, kt, mid, lo, hi, last):
+    """Emission ``dG`` of the bin ``[ea, eb]`` and its emission centroid kept inside
+    ``[lo, hi]``; narrow bins by the difference form of
+    :func:`.absorption._bin_emission_differences`, which does not cancel."""
     if last:
         dg = t2a
         d3 = t3a
     else:
-        dg = t2a - t2b
-        d3 = t3a - t3b
+        h = (eb - ea) / kt
+        if h < NARROW_BIN_KT:
+            xa = ea / kt
+            xb = eb / kt
+            em = 1.0
+            for k in range(NARROW_BIN_TERMS, 1, -1):
+                em = 1.0 - h / k * em
+            em = h * em
+            dg = exa * (em * (xb * xb + 2.0 * xb + 2.0) - h * (xa + xb + 2.0))
+            d3p = xa * xa + xa * xb + xb * xb + 3.0 * (xa + xb) + 6.0
+            d3 = exa * (em * (xb * (xb * xb + 3.0 * xb + 6.0) + 6.0) - h * d3p)
+        else:
+            dg = t2a - t2b
+            d3 = t3a - t3b
     ee = kt * d3 / dg if dg > 0 else mid
     return dg, min(max(ee, lo), hi)
 
@@ -235,18 +250,30 @@ def stack_optics(
         if kind[i] != 0:
             kt_ref = kt[0, i]
             break
+    b_ex = np.empty(nb)
     b_t2 = np.empty(nb)
     b_t3 = np.empty(nb)
     b_dg = np.empty(nb)
     b_em = np.empty(nb)
     if kt_ref > 0:
         for b in range(nb):
-            b_t2[b], b_t3[b] = _node_emission(base[b], kt_ref)
+            b_ex[b], b_t2[b], b_t3[b] = _node_emission(base[b], kt_ref)
         for b in range(nb):
             last = b == nb - 1
             b1 = b if last else b + 1
             b_dg[b], b_em[b] = _bin_emission(
-                b_t2[b], b_t3[b], b_t2[b1], b_t3[b1], kt_ref, b_mid[b], b_lo[b], b_hi[b], last
+                base[b],
+                base[b1],
+                b_ex[b],
+                b_t2[b],
+                b_t3[b],
+                b_t2[b1],
+                b_t3[b1],
+                kt_ref,
+                b_mid[b],
+                b_lo[b],
+                b_hi[b],
+                last,
             )
     # --- per-stack buffers, reused
     edges = np.empty(L)
@@ -257,6 +284,7 @@ def stack_optics(
     dpow = np.empty(L)
     e_sun = np.empty(L)
     trans = np.empty(L)
+    ex = np.empty(L)
     t2 = np.empty(L)
     t3 = np.empty(L)
     dg = np.empty(L)
@@ -290,6 +318,7 @@ def stack_optics(
                     dpow[q] = b_dpow[ib]
                     e_sun[q] = b_sun[ib]
                     if use_ref:
+                        ex[q] = b_ex[ib]
                         t2[q] = b_t2[ib]
                         t3[q] = b_t3[ib]
                         dg[q] = b_dg[ib]
@@ -299,6 +328,7 @@ def stack_optics(
                 else:
                     mids[q] = -1.0  # split: computed below
                     if use_ref:
+                        ex[q] = b_ex[ib]
                         t2[q] = b_t2[ib]
                         t3[q] = b_t3[ib]
                         node_stamp[q] = stamp
@@ -369,11 +399,22 @@ def stack_optics(
                     q1 = q if last else q + 1
                     for r_ in (q, q1):
                         if node_stamp[r_] != stamp:
-                            t2[r_], t3[r_] = _node_emission(edges[r_], kti)
+                            ex[r_], t2[r_], t3[r_] = _node_emission(edges[r_], kti)
                             node_stamp[r_] = stamp
                     blo, bhi = _centroid_bounds(edges[q], edges[q1], last)
                     dg[q], e_em[q] = _bin_emission(
-                        t2[q], t3[q], t2[q1], t3[q1], kti, mids[q], blo, bhi, last
+                        edges[q],
+                        edges[q1],
+                        ex[q],
+                        t2[q],
+                        t3[q],
+                        t2[q1],
+                        t3[q1],
+                        kti,
+                        mids[q],
+                        blo,
+                        bhi,
+                        last,
                     )
                     bin_stamp[q] = stamp
                 if acc > 0.0 and t2[q] <= EMISSION_RTOL * acc:
