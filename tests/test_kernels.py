@@ -52,7 +52,9 @@ def _kernels_for_small_batches():
 # Agreement of compiled and numpy paths: both stop at 1e-13 relative on the solution
 # variable and differ only in the rounding of log/exp/polylog; 1e-12 relative leaves a
 # factor 10 for that. Voltages that are zero in exact arithmetic (a junction carrying
-# exactly its photocurrent) are compared with an absolute floor of 1e-12 kT/q.
+# exactly its photocurrent) are compared with an absolute floor of 1e-12 kT/q, and
+# powers, accordingly, with a floor of 1e-12 J_ph,max kT/q (a nearly shorted junction,
+# V_mpp of a few uV, carries the log's rounding of ~1e-16 kT/q as 1e-11 of its power).
 RTOL = 1e-12
 
 AM15G = gm.standard_spectrum("AM1.5G")
@@ -79,7 +81,7 @@ def _random_gaps(seed, m, n, lo=0.5, hi=2.5):
 def _compare(sol_k, sol_n, vt):
     a, b = sol_k.op, sol_n.op
     jscale = np.max(sol_n.jph)
-    _close(a.p_mpp, b.p_mpp, 1e-12 * jscale)
+    _close(a.p_mpp, b.p_mpp, jscale * vt)
     _close(a.v_junction, b.v_junction, vt)
     _close(a.j_junction, b.j_junction, jscale)
     _close(a.voc, b.voc, vt)
@@ -233,6 +235,67 @@ def test_compiled_finite_absorber_stacks_match_numpy():
     with kernels.disabled():
         sol_n = solve_stacks_nonideal(gaps, AM15G, "series", device, threads=1)
     _compare(sol_k, sol_n, K_B * 300.0 / Q)
+
+
+@needs_jit
+@pytest.mark.parametrize("m", [1, 255, 256, 2 * 256 + 37])
+@pytest.mark.parametrize("n", [1, 2, 3, 6])
+def test_block_kernel_series_matches_numpy(m, n):
+    # the Boltzmann series kernel runs blocks of kernels.lanes().BLOCK stacks in SIMD
+    # lanes, iterating each block until its slowest stack has converged; partial and
+    # several blocks, dark junctions (gap above the spectrum's 4.43 eV edge: J_ph = 0)
+    # and per-junction temperature and ERE must give numpy's answer stack by stack
+    assert kernels.lanes().BLOCK == 256
+    gaps, rng = _random_gaps(1000 * m + n, m, n, lo=0.4, hi=3.0)
+    gaps[rng.random(m) < 0.1, 0] = 4.6 * EV
+    t = rng.uniform(250.0, 400.0, (m, n))
+    kw = dict(temperature_K=t, ere=10 ** rng.uniform(-6, 0, (m, n)), threads=1)
+    sol_k = solve_stacks(gaps, AM15G, "series", **kw)
+    with kernels.disabled():
+        sol_n = solve_stacks(gaps, AM15G, "series", **kw)
+    _compare(sol_k, sol_n, K_B * 250.0 / Q)
+
+
+def _special_values():
+    return np.array(
+        [0.0, -0.0, -1.0, np.inf, -np.inf, np.nan, 5e-324, 1e-310, 2.2250738585072014e-308]
+    )
+
+
+@needs_jit
+@pytest.mark.parametrize(
+    "lo, hi",
+    [(-323.0, -308.0), (-308.0, -1.0), (-1e-6, 1e-6), (-1.0, 1.0), (1.0, 308.0)],
+)
+def test_block_logarithm_matches_numpy(lo, hi):
+    # fdlibm's log kernel is accurate to < 1 ulp and numpy's to about 1 ulp: 1e-15
+    # relative (4.5 ulp) allows both; special values must be numpy's exactly
+    rng = np.random.default_rng(int(hi - lo))
+    x = 10.0 ** rng.uniform(lo, hi, 20000)
+    got, ref = kernels.lanes().log_values(x), np.log(x)
+    nonzero = ref != 0
+    assert np.all(np.abs(got[nonzero] / ref[nonzero] - 1) <= 1e-15)
+    assert np.all(got[~nonzero] == 0.0)
+    sp = _special_values()
+    with np.errstate(divide="ignore", invalid="ignore"):
+        assert np.array_equal(kernels.lanes().log_values(sp), np.log(sp), equal_nan=True)
+
+
+@needs_jit
+@pytest.mark.parametrize(
+    "lo, hi", [(-1e-300, 1e-300), (-0.35, 0.35), (-1.0, 1.0), (-60.0, 60.0), (-800.0, 800.0)]
+)
+def test_block_expm1_matches_numpy(lo, hi):
+    # the Taylor series and Cody-Waite reduction are rounding-limited (measured <= 2 ulp,
+    # 4.4e-16); 1e-15 relative allows that plus numpy's own error. Overflow gives inf
+    # and NaN stays NaN, as numpy
+    rng = np.random.default_rng(int(hi))
+    y = np.concatenate([rng.uniform(lo, hi, 20000), _special_values()])
+    with np.errstate(over="ignore", invalid="ignore"):
+        got, ref = kernels.lanes().expm1_values(y), np.expm1(y)
+    finite = np.isfinite(ref) & (ref != 0)
+    assert np.all(np.abs(got[finite] / ref[finite] - 1) <= 1e-15)
+    assert np.array_equal(got[~finite], ref[~finite], equal_nan=True)
 
 
 @needs_jit

@@ -105,9 +105,10 @@ def solve_series(d, *, xtol_rel: float = XTOL_REL) -> OperatingPoint:
     the limiting junction's reverse voltage cancels the others' (one fixed-point step
     from ``J_min``, exact to first order in ``J0 / J_ph``).
 
-    With numba available the per-stack compiled kernel of :mod:`.kernels` runs the same
-    iteration (the Bose-Einstein junction voltages warm-started from the previous
-    iterate instead of inverted afresh).
+    With numba available a compiled kernel (see :mod:`.kernels`) runs the same
+    iteration: for Boltzmann diodes on blocks of stacks in SIMD lanes
+    (:mod:`._lanes`), for Bose-Einstein diodes per stack, the junction voltages
+    warm-started from the previous iterate instead of inverted afresh.
     """
     kp = kernels.for_diodes(d, "series")
     if kp is not None:
@@ -187,10 +188,11 @@ def _series_kernel(d, kp, xtol_rel) -> OperatingPoint:
     model, jph, vt, a, b, c, j0b, vup = kp
     m, n = jph.shape
     j_out, jsc = np.empty(m), np.empty(m)
-    vj, voc = np.empty((m, n)), np.empty((m, n))
-    if model == 0:
-        kernels.jit().series_boltzmann(jph, vt, a, float(xtol_rel), j_out, vj, jsc, voc)
+    if model == 0:  # Boltzmann: the SIMD block kernel (Fortran-order outputs)
+        vj, voc = np.empty((m, n), order="F"), np.empty((m, n), order="F")
+        kernels.lanes().series_boltzmann(jph, vt, a, float(xtol_rel), j_out, vj, jsc, voc)
     else:
+        vj, voc = np.empty((m, n)), np.empty((m, n))
         kernels.jit().series(
             model, jph, vt, a, b, c, j0b, vup, float(xtol_rel), j_out, vj, jsc, voc
         )
