@@ -326,6 +326,45 @@ def test_thresholds_of_the_paths_without_diode_objects():
         assert not kernels.for_batch(10**9, OPTICS_WEIGHT)
 
 
+def test_light_paths_use_their_kernel_only_once_numba_is_loaded(monkeypatch):
+    # the Boltzmann series kernel and the spectrum look-up save ~0.1 us per stack: below
+    # LIGHT_MIN_STACKS they must not import numba themselves (0.4 s), only use it
+    import types
+
+    m = kernels.MIN_STACKS
+    with kernels.min_stacks(kernels.MIN_STACKS):
+        _state_all = kernels._state["all"]
+        kernels._state["all"] = 0
+        try:
+            monkeypatch.setattr(kernels, "sys", types.SimpleNamespace(modules={}))
+            assert not kernels.for_light(m)
+            assert kernels.for_light(kernels.LIGHT_MIN_STACKS)
+            jph, gaps = np.full((m, 2), 150.0), np.full((m, 2), 1.5 * EV)
+            d = make_diodes("boltzmann", jph, gaps, 300.0, 1.0, 1.0)
+            assert kernels.for_diodes(d, "series") is None
+            monkeypatch.setattr(kernels, "sys", types.SimpleNamespace(modules={"numba": 1}))
+            assert kernels.for_light(m) and not kernels.for_light(m - 1)
+            assert kernels.for_diodes(d, "series") is not None
+        finally:
+            kernels._state["all"] = _state_all
+
+
+@needs_jit
+def test_a_default_evaluation_does_not_import_numba():
+    # 20,000 ideal series stacks in a fresh process: numpy, no numba import
+    import subprocess
+    import sys
+
+    code = (
+        "import sys, numpy as np, gapmatch as gm\n"
+        "g = np.column_stack([np.linspace(1.5, 2.2, 20000), np.full(20000, 1.0)])\n"
+        "gm.evaluate(g, 'series')\n"
+        "print('numba' in sys.modules)\n"
+    )
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert r.stdout.strip() == "False"
+
+
 def test_env_var_disables_kernels(monkeypatch):
     monkeypatch.setenv("GAPMATCH_NO_JIT", "1")
     assert not kernels.available()
@@ -403,6 +442,11 @@ def test_polylog_against_mpmath(s):
         jit = kernels.jit()
         got_jit = np.array([jit.li123(float(x))[s - 1] for x in d])
         np.testing.assert_allclose(got_jit, ref, rtol=4e-15)
+        # the kernel's fourth output, 1 / expm1(d) (Bose-Einstein occupation at the gap)
+        got_f = np.array([jit.li123(float(x))[3] for x in d])
+        with mpmath.workdps(80):
+            ref_f = [float(1 / mpmath.expm1(mpmath.mpf(float(x)))) for x in d]
+        np.testing.assert_allclose(got_f, ref_f, rtol=4e-15)
 
 
 def _exact_be_voc(jph, gap_J, t_k):  # noqa: N803

@@ -24,6 +24,14 @@ blocks of stacks side by side in SIMD lanes with its own vectorisable logarithm:
 faster than numpy there. Boltzmann independent stacks stay on numpy
 (``NUMPY_BY_DEFAULT``), which is faster there (scipy's vectorised Wright omega).
 
+The ideal Boltzmann series path and the spectrum look-ups save about 0.1 us per stack
+each, so numba's import and cached load (about 0.4 s) pays for itself only from a few
+million stacks. These light paths (:func:`for_light`, ``LIGHT_PATHS``) use their
+kernels when numba is already loaded in the process (another kernel ran, or the map
+command's CSV formatter), or for a batch of at least ``LIGHT_MIN_STACKS`` stacks;
+otherwise they stay on numpy, so a default search or a small evaluation does not import
+numba for them.
+
 References
 ----------
 .. [1] S. K. Lam, A. Pitrou and S. Seibert, "Numba: a LLVM-based Python JIT compiler",
@@ -34,6 +42,7 @@ from __future__ import annotations
 
 import importlib.util
 import os
+import sys
 from contextlib import contextmanager
 
 import numpy as np
@@ -47,6 +56,9 @@ __all__ = [
     "min_stacks",
     "for_diodes",
     "for_batch",
+    "for_light",
+    "LIGHT_PATHS",
+    "LIGHT_MIN_STACKS",
     "jit",
     "optics_jit",
     "lanes",
@@ -59,6 +71,13 @@ MIN_STACKS = 4096
 #: benchmark batch, numpy is faster there (independent: scipy's vectorised Wright omega,
 #: 160 vs 270 ns/stack), so the compiled kernel would only add numba's import
 NUMPY_BY_DEFAULT = frozenset({("boltzmann", "independent")})
+
+#: (diode model, connection) pairs whose kernel saves too little to import numba for
+LIGHT_PATHS = frozenset({("boltzmann", "series")})
+
+#: batch size from which a light path imports numba itself: 0.4 s of import and load
+#: against ~0.1 us saved per stack
+LIGHT_MIN_STACKS = 4_000_000
 
 _state = {
     "off": 0,
@@ -141,6 +160,15 @@ def for_batch(m: int, weight: int = 1) -> bool:
     return available() and m * weight >= _min_stacks()
 
 
+def for_light(m: int) -> bool:
+    """Whether a batch of ``m`` stacks (or values) of a light path -- the Boltzmann
+    series solve, a spectrum's cumulative look-up -- runs on its compiled kernel: numba
+    already loaded (or :func:`everywhere`), or ``m >= LIGHT_MIN_STACKS``."""
+    if not (available() and m >= _min_stacks()):
+        return False
+    return bool(_state["all"]) or "numba" in sys.modules or m >= LIGHT_MIN_STACKS
+
+
 def optics_jit():
     """The compiled optics of finite absorbers (:mod:`._optics_jit`; imports numba)."""
     if _state["optics"] is None:
@@ -166,7 +194,10 @@ def for_diodes(d, connection: str):
     ``NUMPY_BY_DEFAULT``). Arrays are ``(M, N)``, Fortran order."""
     if not available() or d.jph.shape[0] < _min_stacks():
         return None
-    if not _state["all"] and (getattr(d, "model", ""), connection) in NUMPY_BY_DEFAULT:
+    key = (getattr(d, "model", ""), connection)
+    if not _state["all"] and key in NUMPY_BY_DEFAULT:
+        return None
+    if key in LIGHT_PATHS and not for_light(d.jph.shape[0]):
         return None
     from .diodes import BoltzmannDiodes, BoseEinsteinDiodes
 

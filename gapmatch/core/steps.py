@@ -32,6 +32,11 @@ def step_shares(above: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     total : numpy.ndarray
         What the whole stack absorbs, ``max_i F_i``, shape ``(...)``.
     """
-    acc = np.maximum.accumulate(above, axis=-1)
-    prev = np.concatenate([np.zeros_like(acc[..., :1]), acc[..., :-1]], axis=-1)
-    return acc - prev, acc[..., -1]
+    # the running maximum junction by junction: N whole-array passes (a strided
+    # np.maximum.accumulate along the short last axis costs 3-4x more); same values
+    acc = np.array(above, copy=True, order="K")
+    for i in range(1, acc.shape[-1]):
+        np.maximum(acc[..., i - 1], acc[..., i], out=acc[..., i])
+    shares = acc.copy(order="K")
+    shares[..., 1:] -= acc[..., :-1]
+    return shares, acc[..., -1]
