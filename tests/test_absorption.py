@@ -316,12 +316,12 @@ def test_bin_emission_against_mpmath(x_a, h):
     # mild cancellation of the wide-bin form just above h = 0.1 at x = 0.5.
     import mpmath
 
-    from gapmatch.core.absorption import _bin_emission_differences
+    from gapmatch.core.planck import boltzmann_bin_emission
 
     mpmath.mp.dps = 40
     kt = KT300
     edges = np.array([x_a * kt, (x_a + h) * kt])
-    dg, dg3, _ = _bin_emission_differences(edges, kt)
+    dg, dg3, _ = boltzmann_bin_emission(edges, kt)
     xa = mpmath.mpf(edges[0]) / mpmath.mpf(kt)
     xb = mpmath.mpf(edges[1]) / mpmath.mpf(kt)
 

@@ -51,7 +51,7 @@ import numpy as np
 from numba import njit
 
 from ..units import EV
-from .absorption import NARROW_BIN_KT, NARROW_BIN_TERMS
+from .planck import NARROW_BIN_KT, NARROW_BIN_TERMS
 
 _JIT = dict(cache=True, nogil=True, error_model="numpy")
 _INLINE = dict(_JIT, inline="always")
@@ -161,7 +161,7 @@ def _node_emission(e, kt):
 def _bin_emission(ea, eb, exa, t2a, t3a, t2b, t3b, kt, mid, lo, hi, last):
     """Emission ``dG`` of the bin ``[ea, eb]`` and its emission centroid kept inside
     ``[lo, hi]``; narrow bins by the difference form of
-    :func:`.absorption._bin_emission_differences`, which does not cancel."""
+    :func:`.planck.boltzmann_bin_emission`, which does not cancel."""
     if last:
         dg = t2a
         d3 = t3a

@@ -71,7 +71,7 @@ import numpy as np
 from ..units import EV, K_B, C, H, Q
 from . import kernels
 from .diodes import ln_j0_radiative
-from .planck import PLANCK_PREFACTOR
+from .planck import PLANCK_PREFACTOR, boltzmann_bin_emission
 from .spectra import Spectrum, TabulatedSpectrum
 
 __all__ = [
@@ -376,52 +376,6 @@ def _optics_kernel(g, t, kt, d, floors, base, f_base, p_base, extra, spectrum, p
 #: sqrt(E - E_g) up to 8 spacings, where a square-root edge is not smooth in E
 _EDGE_GRADING = tuple(8.0 * (j / 16.0) ** 2 for j in range(1, 17))
 
-#: bins narrower than this (in units of kT) take their Boltzmann emission from the
-#: difference form of :func:`_bin_emission_differences`, which does not cancel
-NARROW_BIN_KT = 0.1
-#: Taylor terms of ``1 - e^-h`` for ``h < NARROW_BIN_KT``: 0.1**12 / 12! < 3e-21
-NARROW_BIN_TERMS = 11
-
-
-def _bin_emission_differences(edges, kt):
-    """Boltzmann photon number and energy emitted in each bin between ``edges`` [J]
-    (last axis ascending) at ``kt`` [J], in units of ``q g (kT)^3``, and the emission
-    above each node.
-
-    With ``x = E / kT``, the emission above a node is ``G(x) = e^-x p2(x)``,
-    ``p2 = x^2 + 2x + 2`` (energy: ``e^-x p3(x)``, ``p3 = x^3 + 3x^2 + 6x + 6``). A bin
-    ``[x_a, x_b]`` emits ``G(x_a) - G(x_b)``; in a narrow bin (``h = x_b - x_a <
-    NARROW_BIN_KT``) that difference cancels (a 1-ulp change of ``e^-x`` became 1e-12 of
-    a thick direct absorber's ``J0``), so it is taken as ``e^-x_a [(1 - e^-h) p2(x_b) -
-    h (x_a + x_b + 2)]`` (and ``p3(x_a) - p3(x_b) = -h (x_a^2 + x_a x_b + x_b^2 +
-    3 (x_a + x_b) + 6)``), ``1 - e^-h`` by its Taylor series. The last bin is open above.
-
-    Returns
-    -------
-    tuple of numpy.ndarray
-        ``(dg, dg3, t2)``: photon number and energy per bin, and ``G`` at each node.
-    """
-    x = edges / kt
-    ex = np.exp(-x)
-    t2 = ex * (x * x + 2.0 * x + 2.0)
-    t3 = ex * (x * (x * x + 3.0 * x + 6.0) + 6.0)
-    xa, xb = x[..., :-1], x[..., 1:]
-    h = (edges[..., 1:] - edges[..., :-1]) / kt
-    em = np.ones_like(h)
-    for k in range(NARROW_BIN_TERMS, 1, -1):
-        em = 1.0 - h / k * em
-    em = h * em
-    p2b = xb * xb + 2.0 * xb + 2.0
-    p3b = xb * (xb * xb + 3.0 * xb + 6.0) + 6.0
-    narrow = h < NARROW_BIN_KT
-    exa = ex[..., :-1]
-    dg = np.where(narrow, exa * (em * p2b - h * (xa + xb + 2.0)), t2[..., :-1] - t2[..., 1:])
-    d3p = xa * xa + xa * xb + xb * xb + 3.0 * (xa + xb) + 6.0
-    dg3 = np.where(narrow, exa * (em * p3b - h * d3p), t3[..., :-1] - t3[..., 1:])
-    dg = np.concatenate([dg, t2[..., -1:]], axis=-1)
-    dg3 = np.concatenate([dg3, t3[..., -1:]], axis=-1)
-    return dg, dg3, t2
-
 
 def _base_grid(spectrum: Spectrum, e_lo: float, e_hi_emit: float, step: float) -> np.ndarray:
     """Ascending energy nodes [J]: native nodes plus a uniform fill of spacing ``step``."""
@@ -554,7 +508,7 @@ def stack_optics(
             if cache is None or not np.array_equal(cache[0], kti):
                 # exact Boltzmann emission of each bin, and the bin's emission centroid
                 # from the next moment
-                dg, dg3, _ = _bin_emission_differences(edges, kti)
+                dg, dg3, _ = boltzmann_bin_emission(edges, kti)
                 with np.errstate(divide="ignore", invalid="ignore"):
                     e_em = np.where(dg > 0, kti * dg3 / dg, mids)
                 cache = (kti, dg, np.clip(e_em, lo_c, hi_c))
