@@ -465,11 +465,9 @@ def _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, mode, lo, hi, x0):
 
 
 @njit(**_INLINE)
-def _vm_setup(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w):
-    """Per-ratio constants of one stack: fills the ``(4, N)`` work array ``w`` and returns
-    ``(G_sat, lo, hi, x0)``: the string ``V_oc`` lies in ``[lo, hi]`` (the smallest and
-    largest ``r_k V_oc,k``, ``hi`` also capped by the model's largest voltage), and
-    ``x0`` is the start point of the maximum power search."""
+def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w):
+    """One stack, one ratio: ``(string voltage at maximum power, string V_oc)``; ``w`` is
+    a ``(4, N)`` work array."""
     n = r.size
     vcap = math.inf
     hmax = -math.inf
@@ -491,28 +489,11 @@ def _vm_setup(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w):
         w[1, k] = 1.0 / (rk * vt[i, k])
         w[2, k] = a[i, k] / vt[i, k]
         w[3, k] = 1.0 / vt[i, k]
+    hi = min(hmax, vcap)
     x0 = wv / wsum if wsum > 0 else 0.0
-    return gsat, lo_oc, min(hmax, vcap), x0
-
-
-@njit(**_INLINE)
-def _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w):
-    """One stack, one ratio: ``(string voltage at maximum power, string V_oc)``; ``w`` is
-    a ``(4, N)`` work array."""
-    gsat, lo_oc, hi, x0 = _vm_setup(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w)
     voc = _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, 0, lo_oc, hi, hi)
     v = _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, 1, 0.0, voc, min(max(x0, 0.0), voc))
     return v, voc
-
-
-@njit(**_INLINE)
-def _vm_mpp_only(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w):
-    """The string voltage at maximum power of one ratio without its ``V_oc``: the power
-    is concave in the string voltage beyond ``V_oc`` as well (every junction's current
-    is concave and decreasing), so its maximum on ``[0, hi]`` is the one on
-    ``[0, V_oc]``; ``V_oc`` is solved only for the ratio that wins."""
-    gsat, _lo, hi, x0 = _vm_setup(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, r, w)
-    return _vm_maximise(model, jph, vt, a, b, c, i, r, w, gsat, 1, 0.0, hi, min(max(x0, 0.0), hi))
 
 
 @njit(**_INLINE)
@@ -561,24 +542,23 @@ def best_ratio(model, jph, vt, a, b, c, vup, vocj, vm, jm, cand, prune, best_k, 
         best_p = -math.inf
         bk = -1
         bv = 0.0
+        bvoc = 0.0
         for t in range(kc):
             q = first if t == 0 else (t - 1 if t - 1 < first else t)
             if t > 0 and q == first:
                 continue
             if prune and t > 0 and ub[q] < best_p * (1.0 - 1e-9):
                 continue
-            v = _vm_mpp_only(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[q], w)
+            v, voc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[q], w)
             p = _vm_power(model, jph, vt, a, b, c, i, cand[q], v)
             if p > best_p or (p == best_p and q < bk):
                 best_p = p
                 bk = q
                 bv = v
+                bvoc = voc
         if bk < 0:
             bk = 0
-            bv = _vm_mpp_only(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[0], w)
-        # the string V_oc of the winning ratio only
-        gsat, lo_oc, hi, _x0 = _vm_setup(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[bk], w)
-        bvoc = _vm_maximise(model, jph, vt, a, b, c, i, cand[bk], w, gsat, 0, lo_oc, hi, hi)
+            bv, bvoc = _vm_one(model, jph, vt, a, b, c, vup, vocj, vm, jm, i, cand[0], w)
         best_k[i] = bk
         v_out[i] = bv
         voc_out[i] = bvoc
