@@ -129,36 +129,35 @@ def _expm1_block(y, ti, tf, out, n):
         out[i] = res
 
 
-def expm1_values(y: np.ndarray) -> np.ndarray:
-    """``expm1`` of a 1-d array by :func:`_expm1_block` (for tests)."""
-    y = np.array(y, dtype=float)
-    out = np.empty_like(y)
-    _expm1_array(y, out)
-    return out
-
-
-@njit(**_JIT)
-def _expm1_array(y, out):
-    ti = np.empty(BLOCK, np.int64)
-    for s0 in range(0, y.size, BLOCK):
-        nb = min(BLOCK, y.size - s0)
-        _expm1_block(y[s0 : s0 + nb], ti, ti.view(np.float64), out[s0 : s0 + nb], nb)
-
-
 def log_values(x: np.ndarray) -> np.ndarray:
     """Natural logarithm of a 1-d array by :func:`_log_block` (for tests)."""
+    return _blockwise_values(0, x)
+
+
+def expm1_values(y: np.ndarray) -> np.ndarray:
+    """``expm1`` of a 1-d array by :func:`_expm1_block` (for tests)."""
+    return _blockwise_values(1, y)
+
+
+def _blockwise_values(which: int, x: np.ndarray) -> np.ndarray:
     x = np.array(x, dtype=float)
     out = np.empty_like(x)
-    _log_array(x, out)
+    _blockwise(which, x, out)
     return out
 
 
 @njit(**_JIT)
-def _log_array(x, out):
+def _blockwise(which, x, out):
+    """``out = f(x)`` block by block, ``f`` the block logarithm (``which = 0``) or the
+    block ``expm1`` (``which = 1``)."""
     ti = np.empty(BLOCK, np.int64)
+    tf = ti.view(np.float64)
     for s0 in range(0, x.size, BLOCK):
         nb = min(BLOCK, x.size - s0)
-        _log_block(x[s0 : s0 + nb], ti, ti.view(np.float64), out[s0 : s0 + nb], nb)
+        if which == 0:
+            _log_block(x[s0 : s0 + nb], ti, tf, out[s0 : s0 + nb], nb)
+        else:
+            _expm1_block(x[s0 : s0 + nb], ti, tf, out[s0 : s0 + nb], nb)
 
 
 @njit(**_JIT)
